@@ -1,0 +1,3 @@
+from benchbook.cli import main
+
+raise SystemExit(main())

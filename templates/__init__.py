@@ -1,0 +1,1 @@
+"""Shipped workbook templates (data files only)."""
