@@ -1,0 +1,213 @@
+"""IEEE 485 section method, autonomy sizing with the KiBaM rate, and option enumeration."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy.optimize import brentq
+
+from benchbook.errors import ModelError, SpecError
+from benchbook.model.battery import BatterySpec
+from benchbook.model.catalog import DEFAULT_CATALOG
+from benchbook.model.job import DutyPeriod, Job, Load
+from benchbook.model.rate import Kibam
+from benchbook.model.sizing import (autonomy_size, duty_cycle_size, kibam_for, kt_from_spec, series_count,
+                                    string_capacity_ah)
+
+BY = {s.model: s for s in DEFAULT_CATALOG}
+
+
+def linear_kt(minutes):
+    """A simple invented K_t curve for hand working: K_t = 0.1 + 0.9 t/60 [Ah/A]."""
+    return 0.1 + 0.9 * minutes / 60.0
+
+
+def flat_spec(**kw):
+    """An invented rate-independent 12 V block: 100 Ah at every rate (demo data only)."""
+    base = dict(model="TEST-FLAT-100", chemistry="agm", block_voltage_v=12,
+                rate_table=((1, 100.0), (10, 100.0), (100, 100.0)), rate_end_voltage_per_cell_v=1.75,
+                internal_resistance_mohm=4.0, float_voltage_per_cell_v=2.27, absorption_voltage_per_cell_v=2.40,
+                temp_comp_mv_per_c_per_cell=-3.0, max_charge_current_a=30.0, self_discharge_pct_per_month=2.5,
+                weight_kg=30.0, length_mm=330.0, width_mm=171.0, height_mm=215.0, unit_price=200.0,
+                cycle_life=((0.2, 1800), (0.5, 700), (0.8, 400)), float_life_years=10.0,
+                description="invented test block")
+    base.update(kw)
+    return BatterySpec(**base)
+
+
+#: KiBaM with c -> 1: every rate delivers q_max (Manwell & McGowan 1993: q(T) -> q_max when c = 1).
+FLAT_KIBAM = Kibam(1 - 1e-12, 1.0, 100.0)
+
+
+# ---------------------------------------------------------------------------------
+# IEEE 485 section method (structure from memory: IEEE Std 485 sizing worksheet)
+# ---------------------------------------------------------------------------------
+# Duty cycle worked by hand, K_t = 0.1 + 0.9 t/60, T_t = 1.11 (IEEE 485 Table 1 at
+# 60 °F, from memory), design margin 1.10, aging factor 1.25 (IEEE 485, from memory):
+#   P1: 100 A for 1 min, P2: 40 A for 119 min, P3: 80 A for 60 min.
+# Section 1 (t = 1):        +100 A × K(1)=0.115 × 1.11                 = 12.765 Ah
+# Section 2: A3 = 80 > A2 = 40, so section 2 is skipped (still shown):
+#           +100 × K(120)=1.9 × 1.11 = 210.9 ; -60 × K(119)=1.885 × 1.11 = -125.541 → 85.359
+# Section 3: +100 × K(180)=2.8 × 1.11 = 310.8
+#            -60 × K(179)=2.785 × 1.11 = -185.481   (negative term kept)
+#            +40 × K(60)=1.0 × 1.11   = 44.4        → F3 = 169.719 Ah, controlling
+# Random load 50 A for 1 min: 50 × K(1)=0.115 × 1.11 = 6.3825 Ah
+# Uncorrected = 169.719 + 6.3825 = 176.1015 Ah; × 1.10 × 1.25 = 242.1395625 Ah
+PERIODS = [(100.0, 1.0), (40.0, 119.0), (80.0, 60.0)]
+
+
+def test_section_method_worked_by_hand():
+    r = duty_cycle_size(PERIODS, linear_kt, temp_factor=1.11, design_margin=1.10, aging_factor=1.25,
+                        random_load=(50.0, 1.0))
+    s1, s2, s3 = r.sections
+    assert [t.ah for t in s1.terms] == pytest.approx([12.765])
+    assert (s1.terms[0].minutes, s1.terms[0].kt_ah_per_a) == pytest.approx((1.0, 0.115))
+    assert s2.skipped and not s1.skipped and not s3.skipped
+    assert [t.ah for t in s2.terms] == pytest.approx([210.9, -125.541])
+    assert [t.minutes for t in s3.terms] == pytest.approx([180.0, 179.0, 60.0])
+    assert [t.delta_current_a for t in s3.terms] == pytest.approx([100.0, -60.0, 40.0])
+    assert [t.kt_ah_per_a for t in s3.terms] == pytest.approx([2.8, 2.785, 1.0])
+    assert [t.ah for t in s3.terms] == pytest.approx([310.8, -185.481, 44.4])
+    assert s3.total_ah == pytest.approx(169.719)
+    assert r.controlling_section == 3
+    assert r.max_section_ah == pytest.approx(169.719)
+    assert r.random_ah == pytest.approx(6.3825)
+    assert r.uncorrected_ah == pytest.approx(176.1015)
+    assert r.required_ah == pytest.approx(242.1395625)
+    assert sorted(r.section_minutes()) == pytest.approx(sorted([1, 120, 119, 180, 179, 60, 1]))
+
+
+def test_skip_rule_changes_the_controlling_section():
+    # Hand working, K_t as above, T_t = 1: P1 10 A 60 min, P2 200 A 1 min (rising, so section 1 skipped).
+    # Section 1 alone would be 10 × K(60)=1.0 = 10 Ah; section 2:
+    #   +10 × K(61)=1.015 = 10.15 ; +190 × K(1)=0.115 = 21.85 → 32.0 Ah
+    r = duty_cycle_size([(10.0, 60.0), (200.0, 1.0)], linear_kt)
+    assert r.sections[0].skipped and r.sections[0].total_ah == pytest.approx(10.0)
+    assert r.sections[1].total_ah == pytest.approx(32.0)
+    assert r.controlling_section == 2 and r.required_ah == pytest.approx(32.0)
+    # A falling load: section 1 (200 A × K(1)) = 23 Ah is not skipped;
+    # section 2: +200 × K(61)=1.015 = 203 ; -190 × K(60)=1.0 = -190 → 13 Ah (negative term kept).
+    # The skip rule is not applied to it (A3 does not exist), so both count and section 1 controls.
+    r = duty_cycle_size([(200.0, 1.0), (10.0, 60.0)], linear_kt)
+    assert [s.skipped for s in r.sections] == [False, False]
+    assert r.sections[1].terms[1].ah == pytest.approx(-190.0)
+    assert r.sections[1].total_ah == pytest.approx(13.0)
+    assert r.controlling_section == 1 and r.required_ah == pytest.approx(23.0)
+
+
+def test_random_load_goes_on_the_largest_section_only():
+    # Same falling load; random 100 A for 1 min = 100 × 0.115 = 11.5 Ah added once to 23 Ah.
+    r = duty_cycle_size([(200.0, 1.0), (10.0, 60.0)], linear_kt, random_load=DutyPeriod(100.0, 1.0))
+    assert r.random_load.kt_ah_per_a == pytest.approx(0.115)
+    assert r.uncorrected_ah == pytest.approx(34.5) and r.required_ah == pytest.approx(34.5)
+
+
+def test_duty_cycle_reports_every_bad_period():
+    with pytest.raises(ModelError) as ei:
+        duty_cycle_size([(10.0, 5.0), (-3.0, 10.0), (4.0, 0.0), ("x", 1)], linear_kt)
+    text = str(ei.value)
+    assert "period 2: current -3.0 A" in text and "period 3: duration 0.0 min" in text and "period 4" in text
+    with pytest.raises(ModelError, match="no periods"):
+        duty_cycle_size([], linear_kt)
+    with pytest.raises(ModelError, match="every period draws 0 A"):
+        duty_cycle_size([(0.0, 10.0)], linear_kt)
+    with pytest.raises(ModelError, match="design_margin"):
+        duty_cycle_size(PERIODS, linear_kt, design_margin=0.9)
+    with pytest.raises(ModelError, match="K_t for period 1 of section 1"):
+        duty_cycle_size(PERIODS, lambda m: -1.0)
+
+
+def test_kt_from_spec_reads_the_rate_table():
+    s = BY["IL-2F-420"]
+    kt = kt_from_spec(s, reference_hours=8.0)
+    # Table rows of the illustrative cell: 60 min -> 240 Ah in 1 h (240 A), C8 = 395 Ah; 15 min -> 126 Ah (504 A).
+    # K_t = C8 / I_t (IEEE 485 definition, from memory).
+    assert kt(60.0) == pytest.approx(395.0 / 240.0)
+    assert kt(15.0) == pytest.approx(395.0 / 504.0)
+    # A one-period load of 240 A for 60 min needs exactly C8 at 25 °C: F = 240 × 395/240 = 395 Ah.
+    assert duty_cycle_size([(240.0, 60.0)], kt).required_ah == pytest.approx(395.0)
+
+
+# ---------------------------------------------------------------------------------
+# Autonomy sizing (IEEE 1013 structure; factors from memory)
+# ---------------------------------------------------------------------------------
+def test_autonomy_matches_the_published_worksheet_for_a_rate_independent_battery():
+    # Hand working: 2160 Wh/day of load, inverter 0.90 → 2400 Wh/day DC; 48 V → 50 Ah/day;
+    # 3 days → 150 Ah; worksheet (IEEE 1013 structure, REFERENCES.md):
+    #   Ah = Wh/day × days / DoD_max × temp_factor / V = 2400 × 3 / 0.5 × 1.11 / 48 = 333 Ah
+    #   × margin 1.10 × aging 1.25 = 457.875 Ah  → 5 strings of 100 Ah (4.58 rounded up).
+    spec = flat_spec()
+    r = autonomy_size(spec, autonomy_days=3, system_voltage_v=48, max_dod=0.5, daily_wh=2160, efficiency=0.9,
+                      temp_factor=1.11, design_margin=1.10, aging_factor=1.25, kibam=FLAT_KIBAM)
+    assert r.daily_dc_wh == pytest.approx(2400.0)
+    assert r.daily_dc_ah == pytest.approx(50.0)
+    assert r.energy_ah == pytest.approx(150.0)
+    assert r.bank_current_a == pytest.approx(50.0 / 24.0)
+    assert r.required_ah == pytest.approx(2400 * 3 / 0.5 * 1.11 / 48 * 1.10 * 1.25)
+    assert r.required_ah == pytest.approx(457.875)
+    assert r.series == 4 and r.parallel == 5 and r.reached
+    assert [s.enough for s in r.steps[:6]] == [False, False, False, False, True, True]
+    # a rate-independent battery has no parallel gain (common practice, no source: Ah simply add up)
+    assert [s.parallel_gain for s in r.steps] == pytest.approx([1.0] * 8)
+    # P strings of 100 Ah against the worksheet figure: 500 ≥ 457.875 > 400
+    assert r.chosen.bank_capacity_ah == pytest.approx(500.0)
+    # the per-string chain: 100 / 1.11 × 0.5 / 1.25 / 1.10 Ah credited per string
+    assert r.chosen.string_design_ah == pytest.approx(100 / 1.11 * 0.5 / 1.25 / 1.10)
+
+
+def test_autonomy_in_ah_and_an_exact_fit_is_not_rounded_up():
+    # 100 Ah/day × 2 days / DoD 0.5 = 400 Ah = exactly 4 strings of 100 Ah (worksheet formula above).
+    r = autonomy_size(flat_spec(), autonomy_days=2, system_voltage_v=24, max_dod=0.5, daily_ah=100,
+                      kibam=FLAT_KIBAM)
+    assert r.required_ah == pytest.approx(400.0)
+    assert r.parallel == 4 and r.series == 2 and r.daily_load_wh == pytest.approx(2400.0)
+
+
+def _mm_capacity(qmax, c, k, t):
+    """Manwell & McGowan (1993) constant-current capacity, written out independently."""
+    return qmax * k * c * t / (1 - math.exp(-k * t) + c * (k * t - 1 + math.exp(-k * t)))
+
+
+def test_autonomy_uses_the_kibam_capacity_at_the_string_current():
+    spec = BY["IL-12A-100"]
+    kb = kibam_for(spec)
+    r = autonomy_size(spec, autonomy_days=2, system_voltage_v=24, max_dod=0.6, daily_wh=1500,
+                      temp_factor=1.04, design_margin=1.1, aging_factor=1.25)
+    for step in r.steps:
+        # the runtime solves q(T) = I T with q from Manwell & McGowan 1993 (doi:10.1016/0038-092X(93)90060-2),
+        # found here with scipy's brentq as the reference root finder
+        i = step.string_current_a
+        t_ref = brentq(lambda t: _mm_capacity(kb.q_max_ah, kb.c, kb.k_per_h, t) - i * t, 1e-6, 1e6, xtol=1e-12)
+        assert step.runtime_h == pytest.approx(t_ref, rel=1e-8)
+        assert step.string_capacity_ah == pytest.approx(min(i * t_ref, 108.0), rel=1e-8)
+    # lower current per string → more charge per string: the parallel gain is above 1 and grows with P
+    gains = [s.parallel_gain for s in r.steps]
+    assert gains[0] == 1.0 and all(b > a for a, b in zip(gains, gains[1:]))
+    assert r.parallel == next(s.parallel for s in r.steps if s.enough)
+    # slower than the table's 100 h → flagged as extrapolated
+    assert [s.extrapolated for s in r.steps] == [s.runtime_h > 100.0 for s in r.steps]
+
+
+def test_capacity_is_capped_at_the_longest_rate():
+    # KiBaM with q_max 130 Ah on a table that stops at 100 Ah / 100 h: very slow rates count 100 Ah.
+    kb = Kibam(0.4, 0.8, 130.0)
+    cap, rt = string_capacity_ah(kb, 0.05, 100.0)
+    assert rt > 1000 and cap == 100.0
+    cap, rt = string_capacity_ah(kb, np.array([20.0, 0.05]), np.array([100.0, 100.0]))
+    assert cap[0] == pytest.approx(20.0 * rt[0]) and cap[1] == 100.0
+
+
+def test_autonomy_rejects_bad_inputs():
+    spec = flat_spec()
+    with pytest.raises(ModelError, match="not a whole number of 12 V blocks"):
+        autonomy_size(spec, autonomy_days=2, system_voltage_v=30, max_dod=0.5, daily_wh=1000, kibam=FLAT_KIBAM)
+    with pytest.raises(ModelError, match="max_dod"):
+        autonomy_size(spec, autonomy_days=2, system_voltage_v=24, max_dod=1.5, daily_wh=1000, kibam=FLAT_KIBAM)
+    with pytest.raises(ModelError, match="either in Wh"):
+        autonomy_size(spec, autonomy_days=2, system_voltage_v=24, max_dod=0.5, daily_wh=1, daily_ah=1)
+    assert series_count(spec, 48) == 4 and series_count(spec, 30) is None
