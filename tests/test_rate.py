@@ -15,7 +15,15 @@ from scipy.integrate import solve_ivp
 from benchbook.errors import ModelError, SpecError
 from benchbook.model.battery import ratings_at_least
 from benchbook.model.catalog import DEFAULT_CATALOG
-from benchbook.model.rate import Kibam, fit_kibam, kibam_step
+from benchbook.model.rate import (
+    BankAtLoad,
+    Kibam,
+    bank_at_load,
+    fit_kibam,
+    fit_peukert,
+    kibam_step,
+    peukert_hours,
+)
 
 MM = Kibam(c=0.315, k_per_h=1.24, q_max_ah=100.0)  # M&M 1993 indicative lead-acid values
 
@@ -192,3 +200,136 @@ def test_fit_needs_three_ratings():
     assert "3 or more" in str(e.value)
     with pytest.raises(SpecError):
         fit_kibam([(10, 100.0), (20, -1.0), (5, 80.0)])
+
+
+# ---- Peukert ----------------------------------------------------------------------------------
+def test_peukert_two_ratings():
+    # C20 = 100 Ah, C5 = 85 Ah -> k = ln(20/5) / ln(17/5) = 1.1328 (Peukert 1897 rated-capacity form, REFERENCES.md [text])
+    k = fit_peukert([(20, 100.0), (5, 85.0)])
+    assert k == pytest.approx(1.1328, abs=5e-5)
+    assert k == pytest.approx(math.log(4) / math.log(3.4), rel=1e-12)
+    # the fitted law gives both ratings back: 5 A for 20 h, 17 A for 5 h (Peukert 1897, rated form)
+    assert peukert_hours(5.0, 100.0, 20.0, k) == pytest.approx(20.0, rel=1e-12)
+    assert peukert_hours(17.0, 100.0, 20.0, k) == pytest.approx(5.0, rel=1e-12)
+
+
+def test_peukert_least_squares_matches_polyfit():
+    table = [(1, 58.0), (5, 88.0), (10, 100.0), (20, 110.0), (100, 122.0)]
+    h = np.array([t[0] for t in table], dtype=float)
+    i = np.array([t[1] for t in table]) / h
+    # reference: numpy.polyfit of ln H on ln I; k is minus the slope
+    slope, _ = np.polyfit(np.log(i), np.log(h), 1)
+    assert fit_peukert(table) == pytest.approx(-slope, rel=1e-12)
+    # order of the rows does not matter
+    assert fit_peukert(table[::-1]) == pytest.approx(-slope, rel=1e-12)
+
+
+def test_peukert_hours_arrays_and_limits():
+    cur = np.array([2.5, 5.0, 10.0, 0.0, -3.0])
+    t = peukert_hours(cur, 100.0, 20.0, 1.2)
+    # t = H (C / (I H))^k by hand: 20 * 2^1.2, 20, 20 * 0.5^1.2
+    assert t[:3] == pytest.approx([20 * 2 ** 1.2, 20.0, 20 * 0.5 ** 1.2], rel=1e-12)
+    assert np.all(np.isinf(t[3:]))
+    with pytest.raises(SpecError) as e:
+        peukert_hours(5.0, -100.0, 0.0, 1.2)
+    assert [p.field for p in e.value.problems] == ["rated_ah", "rated_hours"]
+    with pytest.raises(SpecError):
+        fit_peukert([(20, 100.0)])
+
+
+# ---- the bank at one load ---------------------------------------------------------------------
+_BY = {s.model: s for s in DEFAULT_CATALOG}
+_FITS = {s.model: (fit_kibam(ratings_at_least(s, 1.0)), fit_peukert(ratings_at_least(s, 1.0)))
+         for s in DEFAULT_CATALOG}
+
+
+def _ode_discharge_then_rest(kb, current, t_cut, rest):
+    """solve_ivp reference: from full at constant current to t_cut, then rest at zero current."""
+    q1, q2 = _ode(kb, kb.c * kb.q_max_ah, (1 - kb.c) * kb.q_max_ah, current, t_cut)
+    return q1, q2, _ode(kb, 0.0, q2, 0.0, rest)
+
+
+def test_bank_power_load_and_single_string():
+    spec = _BY["IL-12A-100"]
+    b = bank_at_load(spec, 4, 1, load_w=1200.0)
+    assert isinstance(b, BankAtLoad)
+    # 4 x 12 V blocks = 24 cells at 2 V nominal = 48 V; 1200 W / 48 V = 25 A (common practice, no source)
+    assert b.bank_voltage_v == 48.0 and b.bank_current_a == pytest.approx(25.0) and b.load_basis == "power"
+    # one string: no parallel gain, by the definition of the gain
+    assert b.kibam_parallel_gain == pytest.approx(1.0, rel=1e-12)
+    assert b.peukert_parallel_gain == pytest.approx(1.0, rel=1e-12)
+    # KiBaM usable charge is q(T) = I T at the runtime (M&M 1993)
+    assert b.kibam_usable_ah == pytest.approx(b.kibam.capacity_ah(b.kibam_runtime_h), rel=1e-9)
+    assert b.kibam_usable_kwh == pytest.approx(b.kibam_usable_ah * 48.0 / 1000.0, rel=1e-12)
+    # 25 A lies between the 3 h (26 A) and 5 h (17 A) ratings of the invented table: runtime inside
+    assert 3.0 < b.kibam_runtime_h < 5.0 and b.in_table
+    # Peukert anchored at C20 = 100 Ah: t = 20 (100 / (25 * 20))^k (Peukert 1897 rated form)
+    assert b.peukert_runtime_h == pytest.approx(20 * (100 / 500) ** b.peukert_k, rel=1e-9)
+
+
+def test_bank_parallel_gain():
+    spec = _BY["IL-2F-420"]
+    b = bank_at_load(spec, 24, 3, load_a=120.0)
+    assert b.string_current_a == pytest.approx(40.0)
+    # Peukert: the gain is P^(k-1) (algebra on Peukert 1897 rated form)
+    assert b.peukert_parallel_gain == pytest.approx(3 ** (b.peukert_k - 1), rel=1e-9)
+    # KiBaM: the gain is T(I/P) / (P T(I)) with T from q(T) = I T (M&M 1993)
+    kb = b.kibam
+    assert b.kibam_parallel_gain == pytest.approx(kb.runtime_h(40.0) / (3 * kb.runtime_h(120.0)), rel=1e-9)
+    assert b.kibam_parallel_gain > 1.0 and b.peukert_parallel_gain > 1.0
+
+
+def test_bank_bound_charge_and_rest_against_ode():
+    spec = _BY["IL-12F-110"]
+    kb, kp = _FITS[spec.model]
+    b = bank_at_load(spec, 2, 2, load_a=40.0, rest_h=6.0, kibam=kb, peukert_k=kp)
+    # reference: scipy.integrate.solve_ivp on the M&M 1993 ODE, one string, then times 2 strings
+    q1_cut, q2_cut, (q1_rest, _q2_rest) = _ode_discharge_then_rest(kb, 20.0, b.kibam_runtime_h, 6.0)
+    assert q1_cut == pytest.approx(0.0, abs=1e-6)
+    assert b.bound_ah_at_cutoff == pytest.approx(2 * q2_cut, rel=1e-7)
+    assert b.recovered_ah_after_rest == pytest.approx(2 * q1_rest, rel=1e-7)
+    # after a very long rest the tanks level: q1 = c (q1 + q2) (equilibrium of the M&M 1993 ODE)
+    long = bank_at_load(spec, 2, 2, load_a=40.0, rest_h=1000.0, kibam=kb, peukert_k=kp)
+    assert long.recovered_ah_after_rest == pytest.approx(kb.c * long.bound_ah_at_cutoff, rel=1e-9)
+
+
+def test_bank_nominal_current_gives_nominal_hours_by_peukert():
+    spec = _BY["IL-2F-1000"]
+    # at the C10 current (100 A per string) Peukert's rated form returns exactly 10 h (Peukert 1897)
+    b = bank_at_load(spec, 24, 2, load_a=200.0)
+    assert b.peukert_rated_hours == 10.0 and b.peukert_rated_ah == pytest.approx(1000.0)
+    assert b.peukert_runtime_h == pytest.approx(10.0, rel=1e-12)
+    assert b.peukert_usable_ah == pytest.approx(2000.0, rel=1e-12)
+
+
+def test_bank_tiny_load_is_flagged_out_of_table():
+    spec = _BY["IL-12G-90"]
+    kb, kp = _FITS[spec.model]
+    # 0.2 A lasts far longer than the 100 h rating of the invented table (common practice, no source)
+    b = bank_at_load(spec, 1, 1, load_a=0.2, kibam=kb, peukert_k=kp)
+    assert not b.in_table and b.kibam_runtime_h > 100.0
+    # KiBaM never delivers more than q_max; Peukert does, which is why KiBaM is the default (M&M 1993)
+    assert b.kibam_usable_ah <= kb.q_max_ah
+
+
+def test_bank_reports_every_bad_argument():
+    spec = _BY["IL-12A-100"]
+    with pytest.raises(SpecError) as e:
+        bank_at_load(spec, 0, 1.5, load_w=-5.0, rest_h=-1.0)
+    assert [p.field for p in e.value.problems] == ["series", "parallel", "load_w", "rest_h"]
+    with pytest.raises(SpecError) as e:
+        bank_at_load(spec, 4, 1, load_w=100.0, load_a=2.0)
+    assert "exactly one" in str(e.value)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.sampled_from(sorted(_BY)), st.integers(1, 24), st.integers(1, 5), st.floats(50.0, 20000.0))
+def test_more_strings_never_deliver_less(model, series, parallel, load_w):
+    spec = _BY[model]
+    kb, kp = _FITS[model]
+    a = bank_at_load(spec, series, parallel, load_w=load_w, kibam=kb, peukert_k=kp)
+    b = bank_at_load(spec, series, parallel + 1, load_w=load_w, kibam=kb, peukert_k=kp)
+    # more parallel strings never deliver less usable energy (DESIGN.md invariant; M&M 1993 and Peukert 1897)
+    assert b.kibam_usable_kwh >= a.kibam_usable_kwh * (1 - 1e-12)
+    assert b.peukert_usable_kwh >= a.peukert_usable_kwh * (1 - 1e-12)
+    assert b.kibam_parallel_gain >= 1.0 - 1e-12

@@ -21,6 +21,7 @@ import numpy as np
 from scipy.optimize import least_squares
 
 from benchbook.errors import FieldProblem, ModelError, SpecError
+from benchbook.model.battery import CELL_NOMINAL_V
 
 
 # ---- small numerical helpers -------------------------------------------------------------
@@ -66,6 +67,82 @@ def _ratings_array(ratings: Iterable[Sequence[float]], what: str, least: int) ->
     return hours, ah
 
 
+# ---- Peukert -----------------------------------------------------------------------------------
+def fit_peukert(ratings: Iterable[Sequence[float]]) -> float:
+    """Peukert exponent ``k`` from rate-table ratings.
+
+    With ``I_x = C_x / H_x``: two ratings give ``k = ln(H1/H2) / ln(I2/I1)``;
+    more than two give the least-squares slope of ``ln H`` against ``ln I``
+    (``k`` = minus the slope).
+
+    Parameters
+    ----------
+    ratings : iterable of (float, float)
+        ``(hours, ah)`` pairs, two or more, with distinct currents. [h], [Ah]
+
+    Returns
+    -------
+    float
+        Peukert exponent. [-]
+
+    References
+    ----------
+    W. Peukert, "Über die Abhängigkeit der Kapazität von der
+    Entladestromstärke bei Bleiakkumulatoren", Elektrotechnische Zeitschrift,
+    1897, pp. 287-288 (journal details from memory; rated-capacity form and
+    two-rating fit as summarised in REFERENCES.md).
+    """
+    hours, ah = _ratings_array(ratings, "Peukert fit", 2)
+    current = ah / hours
+    if len(hours) == 2:
+        return float(math.log(hours[0] / hours[1]) / math.log(current[1] / current[0]))
+    x = np.log(current)
+    y = np.log(hours)
+    a = np.column_stack([x, np.ones_like(x)])
+    slope = np.linalg.lstsq(a, y, rcond=None)[0][0]
+    return float(-slope)
+
+
+def peukert_hours(current_a: float | np.ndarray, rated_ah: float, rated_hours: float,
+                  k: float) -> float | np.ndarray:
+    """Runtime at constant current by Peukert's law, rated-capacity form.
+
+    ``t = H (C / (I H)) ** k``. A current of zero or less never empties the
+    battery: ``inf``. Peukert's law holds for a constant load only and says
+    nothing about charge recovered during rest.
+
+    Parameters
+    ----------
+    current_a : float or ndarray
+        Constant discharge current. [A]
+    rated_ah : float
+        Rated capacity ``C`` at ``rated_hours``. [Ah]
+    rated_hours : float
+        Duration ``H`` of the rating. [h]
+    k : float
+        Peukert exponent, > 0 (1.05-1.6 for lead-acid). [-]
+
+    Returns
+    -------
+    float or ndarray
+        Runtime. [h]
+
+    References
+    ----------
+    W. Peukert, Elektrotechnische Zeitschrift, 1897, pp. 287-288 (see :func:`fit_peukert`).
+    """
+    problems = [FieldProblem(n, v, "a positive, finite number") for n, v in
+                (("rated_ah", rated_ah), ("rated_hours", rated_hours), ("k", k))
+                if not (isinstance(v, (int, float, np.floating, np.integer)) and math.isfinite(v) and v > 0)]
+    if problems:
+        raise SpecError("Peukert parameters", problems)
+    i = np.asarray(current_a, dtype=float)
+    pos = i > 0
+    ip = np.where(pos, i, 1.0)
+    t = rated_hours * (rated_ah / (ip * rated_hours)) ** k
+    return _out(np.where(pos, t, np.inf))
+
+
 # ---- KiBaM ----------------------------------------------------------------------------------
 @dataclass(frozen=True, eq=False)
 class Kibam:
@@ -83,10 +160,8 @@ class Kibam:
         Fit residual: RMS relative capacity error over the fitted ratings
         (see :func:`fit_kibam`); 0.0 for hand-made instances. [-]
 
-    Notes
-    -----
-    Fields may be numpy arrays of one common shape (one element per option);
-    every method then broadcasts. Equality compares field values.
+    ``c``, ``k_per_h`` and ``q_max_ah`` may be numpy arrays of one common
+    shape (one element per option); every method then broadcasts.
 
     References
     ----------
@@ -102,7 +177,7 @@ class Kibam:
 
     def __post_init__(self) -> None:
         problems = []
-        for name, ok, text in (
+        for name, ok, text in (  # every bad field at once
             ("c", lambda v: (v > 0) & (v < 1), "a fraction above 0 and below 1"),
             ("k_per_h", lambda v: v > 0, "a rate constant above 0 1/h"),
             ("q_max_ah", lambda v: v > 0, "a capacity above 0 Ah"),
@@ -176,8 +251,7 @@ class Kibam:
 
         References
         ----------
-        Manwell & McGowan, Solar Energy 50(5):399-405, 1993, capacity at
-        constant current. doi:10.1016/0038-092X(93)90060-2
+        Manwell & McGowan, Solar Energy 50(5):399-405, 1993. doi:10.1016/0038-092X(93)90060-2
         """
         t = np.asarray(hours, dtype=float)
         c, k, qm = (np.asarray(v) for v in (self.c, self.k_per_h, self.q_max_ah))
@@ -209,22 +283,17 @@ class Kibam:
 
         References
         ----------
-        Manwell & McGowan, Solar Energy 50(5):399-405, 1993.
-        doi:10.1016/0038-092X(93)90060-2
+        Manwell & McGowan, Solar Energy 50(5):399-405, 1993. doi:10.1016/0038-092X(93)90060-2
         """
         i = np.asarray(current_a, dtype=float)
-        c, k, qm = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in (self.c, self.k_per_h, self.q_max_ah)))
-        shape = np.broadcast_shapes(i.shape, c.shape)
-        i = np.broadcast_to(i, shape)
         pos = i > 0
         ip = np.where(pos, i, 1.0)
-        lo = np.log(np.broadcast_to(c * qm, shape) / ip)
-        hi = np.log(np.broadcast_to(qm, shape) / ip)
-        kb = Kibam(np.broadcast_to(c, shape), np.broadcast_to(k, shape), np.broadcast_to(qm, shape))
-        for _ in range(80):
+        lo = np.log(np.asarray(self.c) * self.q_max_ah / ip)
+        hi = np.log(np.asarray(self.q_max_ah) / ip)
+        for _ in range(64):  # the bracket is at most ln(1/c) wide: 2**-64 of it is below 1e-17
             mid = 0.5 * (lo + hi)
             tm = np.exp(mid)
-            short = np.asarray(kb.capacity_ah(tm)) > ip * tm  # still charge left at tm
+            short = np.asarray(self.capacity_ah(tm)) > ip * tm  # charge still available at tm
             lo = np.where(short, mid, lo)
             hi = np.where(short, hi, mid)
         t = np.exp(0.5 * (lo + hi))
@@ -254,10 +323,8 @@ class Kibam:
         Returns
         -------
         float or ndarray
-            Discharge: ``I_dmax`` (>= 0 for a non-negative state). Charge: the
-            **magnitude** ``max(0, -I_cmax)`` of the largest charge current;
-            in this module's sign convention the charge current to pass to
-            :func:`kibam_step` is minus this value. [A]
+            Discharge: ``I_dmax``. Charge: the **magnitude** ``max(0, -I_cmax)``;
+            pass minus this value to :func:`kibam_step` to charge. [A]
 
         References
         ----------
@@ -350,10 +417,9 @@ def fit_kibam(ratings: Iterable[Sequence[float]], min_hours: float | None = None
     ``0 < c < 1``, ``k > 0``, ``q_max >=`` the largest rating) from a grid of
     start values; the best fit wins.
 
-    KiBaM cannot follow sub-hour ratings well: ``q(T) -> c q_max`` as
-    ``T -> 0``, whereas a datasheet's 1-minute rating is a few percent of C10.
-    Pass ``min_hours=1.0`` (or ratings from
-    :func:`benchbook.model.battery.ratings_at_least`) to fit the ratings of an
+    KiBaM cannot follow sub-hour ratings: ``q(T) -> c q_max`` as ``T -> 0``,
+    whereas a 1-minute rating is a few percent of C10. Pass ``min_hours=1.0``
+    (or :func:`benchbook.model.battery.ratings_at_least`) to fit ratings of an
     hour and longer only.
 
     Parameters
@@ -369,10 +435,7 @@ def fit_kibam(ratings: Iterable[Sequence[float]], min_hours: float | None = None
         Fitted parameters; ``residual`` is the RMS relative capacity error
         ``sqrt(mean((q(T)/C - 1)^2))`` over the fitted ratings.
 
-    Raises
-    ------
-    SpecError
-        Fewer than three usable ratings, or non-positive values.
+    Fewer than three usable ratings, or bad values, raise :class:`SpecError`.
 
     References
     ----------
@@ -406,3 +469,165 @@ def fit_kibam(ratings: Iterable[Sequence[float]], min_hours: float | None = None
     fitted = np.exp(_kibam_log_capacity(best.x, hours))
     rms = float(np.sqrt(np.mean((fitted / ah - 1.0) ** 2)))
     return Kibam(float(c), float(math.exp(lnk)), float(math.exp(lnq)), rms)
+
+
+# ---- the bank at one load, for estimators --------------------------------------------------
+@dataclass(frozen=True)
+class BankAtLoad:
+    """Usable charge and energy of a bank at one constant load, by KiBaM and by Peukert.
+
+    Charges [Ah] and energies [kWh] are **bank totals** (all strings) to the
+    rate table's end voltage ``end_voltage_per_cell_v`` [V/cell]; energy is
+    charge × the nominal ``bank_voltage_v`` (series × cells per block × 2 V).
+    ``load_basis`` is ``"power"`` (current = load / nominal voltage) or
+    ``"current"``; ``bank_current_a`` splits equally into ``string_current_a``.
+    ``kibam`` and ``peukert_k`` are the parameters of one string, fitted or
+    given; Peukert is anchored to ``peukert_rated_ah`` at
+    ``peukert_rated_hours`` (the spec's nominal rating). ``*_runtime_h`` [h]
+    is the time to the end voltage. ``*_parallel_gain`` [-] is bank usable
+    energy ÷ (parallel × one string's usable energy at the full bank current),
+    above 1 for parallel > 1. ``bound_ah_at_cutoff`` is KiBaM's bound charge
+    ``q2`` when the available tank empties; ``recovered_ah_after_rest`` the
+    available charge ``q1`` after a zero-current rest of ``rest_h`` [h] from
+    that state. ``in_table`` is False when the KiBaM runtime lies outside the
+    durations of the fitted ratings (an extrapolation).
+    """
+
+    model: str
+    series: int
+    parallel: int
+    bank_voltage_v: float
+    end_voltage_per_cell_v: float
+    load_basis: str
+    bank_current_a: float
+    string_current_a: float
+    kibam: Kibam
+    peukert_k: float
+    peukert_rated_ah: float
+    peukert_rated_hours: float
+    kibam_runtime_h: float
+    kibam_usable_ah: float
+    kibam_usable_kwh: float
+    kibam_parallel_gain: float
+    peukert_runtime_h: float
+    peukert_usable_ah: float
+    peukert_usable_kwh: float
+    peukert_parallel_gain: float
+    bound_ah_at_cutoff: float
+    rest_h: float
+    recovered_ah_after_rest: float
+    in_table: bool
+
+
+def _positive(v: object) -> bool:
+    return isinstance(v, (int, float, np.integer, np.floating)) and not isinstance(v, bool) \
+        and math.isfinite(float(v)) and float(v) > 0
+
+
+def bank_at_load(spec, series: int, parallel: int, *, load_w: float | None = None,
+                 load_a: float | None = None, rest_h: float = 8.0, min_fit_hours: float = 1.0,
+                 kibam: Kibam | None = None, peukert_k: float | None = None) -> BankAtLoad:
+    """Usable Ah, kWh, runtime and parallel gain of a bank at one constant load.
+
+    The bank is ``parallel`` strings of ``series`` blocks of ``spec``. A power
+    load becomes a bank current at the nominal bank voltage,
+    ``I = load_w / (series × cells per block × 2 V)``, which splits equally
+    across the strings. Both models answer to the rate table's end voltage.
+    KiBaM (fitted on the ratings of ``min_fit_hours`` and longer, or on all
+    ratings if fewer than three remain): runtime ``T`` solves
+    ``q(T) = I_string T``; bound charge at cut-off and its recovery during
+    ``rest_h`` follow from :func:`kibam_step`. Peukert (exponent fitted on the
+    same ratings, anchored to the spec's nominal rating: C10 for 2 V cells,
+    C20 for monoblocs): ``t = H (C / (I_string H)) ** k``. Every bad argument
+    is reported at once in one :class:`SpecError`.
+
+    Parameters
+    ----------
+    spec : BatterySpec
+        The battery (rate table, block voltage, end voltage).
+    series, parallel : int
+        Blocks in series per string; strings in parallel; both >= 1. [-]
+    load_w, load_a : float, optional
+        Constant load of the bank, as power [W] or as current [A]; give one.
+    rest_h : float
+        Rest after cut-off for the recovered-charge figure, >= 0. [h]
+    min_fit_hours : float
+        Shortest rating used for both fits. [h]
+    kibam : Kibam, optional
+        Use these parameters instead of fitting.
+    peukert_k : float, optional
+        Use this exponent instead of fitting. [-]
+
+    Returns
+    -------
+    BankAtLoad
+
+    References
+    ----------
+    Manwell & McGowan, Solar Energy 50(5):399-405, 1993,
+    doi:10.1016/0038-092X(93)90060-2 (KiBaM); Peukert, Elektrotechnische
+    Zeitschrift, 1897 (Peukert's law). Equal current sharing between strings
+    and the nominal 2 V per cell are common practice, no source.
+    """
+    problems = []
+    for name, v in (("series", series), ("parallel", parallel)):
+        if not (isinstance(v, (int, np.integer)) and not isinstance(v, bool) and v >= 1):
+            problems.append(FieldProblem(name, v, "a whole number of 1 or more"))
+    if (load_w is None) == (load_a is None):
+        problems.append(FieldProblem("load_w", (load_w, load_a), "exactly one of load_w and load_a"))
+    else:
+        name, v = ("load_w", load_w) if load_w is not None else ("load_a", load_a)
+        if not _positive(v):
+            problems.append(FieldProblem(name, v, "a load above 0"))
+    if not (_positive(rest_h) or rest_h == 0):
+        problems.append(FieldProblem("rest_h", rest_h, "a rest of 0 h or more"))
+    if peukert_k is not None and not _positive(peukert_k):
+        problems.append(FieldProblem("peukert_k", peukert_k, "a Peukert exponent above 0"))
+    if problems:
+        raise SpecError("bank load", problems)
+
+    rows = [r for r in spec.rate_table if r[0] >= min_fit_hours]
+    if len(rows) < 3:
+        rows = list(spec.rate_table)
+    if kibam is None:
+        if len(rows) < 3:
+            raise ModelError(f"battery {spec.model!r}: KiBaM needs three or more ratings to fit; "
+                             f"the rate table has {len(rows)}. Pass kibam= with known parameters.")
+        kibam = fit_kibam(rows)
+    if np.ndim(kibam.c) or np.ndim(kibam.k_per_h) or np.ndim(kibam.q_max_ah):
+        raise SpecError("bank load", [FieldProblem("kibam", kibam, "scalar KiBaM parameters (one battery)")])
+    k_p = float(peukert_k) if peukert_k is not None else fit_peukert(rows)
+
+    volts = float(series * spec.cells_per_block * CELL_NOMINAL_V)
+    if load_w is not None:
+        basis, i_bank = "power", float(load_w) / volts
+    else:
+        basis, i_bank = "current", float(load_a)
+    i_str = i_bank / parallel
+
+    t_k = float(kibam.runtime_h(i_str))
+    t_k_single = float(kibam.runtime_h(i_bank))
+    ah_k = parallel * i_str * t_k
+    rated_h = 10.0 if spec.block_voltage_v <= 2 else 20.0
+    rated_ah = float(spec.capacity_ah(rated_h))
+    t_p = float(peukert_hours(i_str, rated_ah, rated_h, k_p))
+    t_p_single = float(peukert_hours(i_bank, rated_ah, rated_h, k_p))
+    ah_p = parallel * i_str * t_p
+
+    q1, q2 = kibam.full_state()
+    _, q2_cut = kibam_step(kibam, q1, q2, i_str, t_k)
+    q1_rest, _ = kibam_step(kibam, 0.0, q2_cut, 0.0, float(rest_h))
+    hours = [r[0] for r in rows]
+    return BankAtLoad(
+        model=spec.model, series=int(series), parallel=int(parallel), bank_voltage_v=volts,
+        end_voltage_per_cell_v=spec.rate_end_voltage_per_cell_v, load_basis=basis,
+        bank_current_a=i_bank, string_current_a=i_str, kibam=kibam, peukert_k=k_p,
+        peukert_rated_ah=rated_ah, peukert_rated_hours=rated_h,
+        kibam_runtime_h=t_k, kibam_usable_ah=ah_k, kibam_usable_kwh=ah_k * volts / 1000.0,
+        kibam_parallel_gain=ah_k / (parallel * i_bank * t_k_single),
+        peukert_runtime_h=t_p, peukert_usable_ah=ah_p, peukert_usable_kwh=ah_p * volts / 1000.0,
+        peukert_parallel_gain=ah_p / (parallel * i_bank * t_p_single),
+        bound_ah_at_cutoff=parallel * float(q2_cut), rest_h=float(rest_h),
+        recovered_ah_after_rest=parallel * float(q1_rest),
+        in_table=bool(min(hours) <= t_k <= max(hours)),
+    )
