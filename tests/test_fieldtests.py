@@ -1,0 +1,302 @@
+"""Field-test model: IEEE 450 capacity, SG correction, readings checks, comparison with KiBaM."""
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy.constants import convert_temperature
+from scipy.optimize import brentq
+
+from benchbook.errors import ModelError, SpecError
+from benchbook.model.fieldcompare import compare_with_model, refit_q_max, remaining_life_years
+from benchbook.model.fieldtests import (CapacityCriteria, CapacityTest, analyse_capacity_test, capacity_percent,
+                                        rate_adjusted_current_a, sg_corrected, time_to_voltage_min)
+from benchbook.model.findings import Finding, sort_findings, status_of, worst
+from benchbook.model.rate import Kibam
+from benchbook.model.readings import (BlockReading, ReadingsCriteria, block_ids_for, check_readings, parse_block_id,
+                                      resistance_terms)
+
+
+def f_to_c(f):
+    return float(convert_temperature(f, "Fahrenheit", "Celsius"))  # scipy.constants, reference conversion
+
+
+# ---- capacity_percent ------------------------------------------------------------------------------
+def test_time_adjusted_cold_battery_is_raised():
+    # IEEE 450 time-adjusted % = t_a/t_s x K x 100 (from memory); K at 60 °F = 1.11, IEEE 485 Table 1
+    # (from memory; published PV worksheets give 1.11 at 60 °F [text])
+    assert capacity_percent(180, 180, f_to_c(60)) == pytest.approx(111.0, abs=1e-9)
+    # the direction: a cold test battery's corrected capacity is HIGHER than uncorrected (REFERENCES.md)
+    assert capacity_percent(150, 180, f_to_c(50)) > 150 / 180 * 100
+    # at 77 °F the factor is 1.000 (IEEE 485 Table 1, from memory)
+    assert capacity_percent(165, 180, 25.0) == pytest.approx(165 / 180 * 100, rel=1e-12)
+    # warm battery: 90 °F -> 0.94 (IEEE 485 Table 1, from memory)
+    assert capacity_percent(180, 180, f_to_c(90)) == pytest.approx(94.0, abs=1e-9)
+    # between rows the factor is interpolated linearly on °F: 70 °F 1.04, 75 °F 1.011 -> 72.5 °F 1.0255
+    assert capacity_percent(100, 100, f_to_c(72.5)) == pytest.approx(102.55, abs=1e-9)
+
+
+def test_rate_adjusted_method_and_current():
+    # rate-adjusted (IEEE 450, from memory): the current is set for temperature, % = t_a/t_s x 100
+    assert capacity_percent(171, 180, f_to_c(60), "rate-adjusted") == pytest.approx(95.0)
+    # test current = rated / K: 100 A at 60 °F -> 100/1.11 (IEEE 485 Table 1, from memory)
+    assert rate_adjusted_current_a(100.0, f_to_c(60)) == pytest.approx(100 / 1.11, rel=1e-12)
+    assert rate_adjusted_current_a(100.0, f_to_c(90)) == pytest.approx(100 / 0.94, rel=1e-12)
+    with pytest.raises(ModelError, match="time-adjusted"):
+        capacity_percent(100, 100, 25, "guessed")
+    with pytest.raises(ModelError, match="rated_minutes"):
+        capacity_percent(100, 0, 25)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.floats(0, 600), st.floats(10, 600), st.floats(-3, 50))
+def test_time_adjusted_direction_property(t, rated, temp):
+    # direction of the correction (REFERENCES.md, IEEE 450 [memory]): colder -> raised, warmer -> lowered
+    pct = capacity_percent(t, rated, temp)
+    raw = t / rated * 100
+    if temp < 25 - 1e-9:
+        assert pct >= raw
+    elif temp > 25 + 1e-9:
+        assert pct <= raw
+    assert capacity_percent(2 * t, rated, temp) == pytest.approx(2 * pct, rel=1e-12, abs=1e-12)  # linear in t
+
+
+# ---- specific gravity ------------------------------------------------------------------------------
+def test_sg_conventions():
+    # IEEE style: +0.001 per 3 °F above 77 °F (from memory): 95 °F is 18 °F above -> +0.006
+    assert sg_corrected(1.210, f_to_c(95)) == pytest.approx(1.216, abs=1e-12)
+    assert sg_corrected(1.210, f_to_c(71)) == pytest.approx(1.208, abs=1e-12)  # 6 °F below -> -0.002
+    # manuals: +0.004 per 10 °F above 80 °F (text)
+    assert sg_corrected(1.250, f_to_c(100), "manual-80f") == pytest.approx(1.258, abs=1e-12)
+    assert sg_corrected(1.250, f_to_c(60), "manual-80f") == pytest.approx(1.242, abs=1e-12)
+    # some manuals: SG_20 = SG_t + 0.0007 (t - 20 °C) (text)
+    assert sg_corrected(1.265, 30.0, "ref-20c") == pytest.approx(1.272, abs=1e-12)
+    arr = sg_corrected(np.array([1.2, 1.21]), np.array([25.0, 25.0]))
+    assert np.allclose(arr, [1.2, 1.21])
+    with pytest.raises(ModelError, match="ref-20c"):
+        sg_corrected(1.2, 25, "ieee-ish")
+
+
+# ---- time to end voltage ---------------------------------------------------------------------------
+def test_time_to_voltage_matches_numpy_interp():
+    t = np.array([0, 30, 60, 90, 120, 150.0])
+    v = np.array([[12.6, 12.6], [12.2, 12.0], [11.9, 11.4], [11.6, 10.4], [11.2, np.nan], [10.4, np.nan]])
+    got = time_to_voltage_min(t, v, 10.5)
+    # numpy.interp on the falling segment (reference library): column 0 crosses between 120 and 150 min
+    assert got[0] == pytest.approx(np.interp(10.5, [10.4, 11.2], [150, 120]))
+    assert got[1] == pytest.approx(np.interp(10.5, [10.4, 11.4], [90, 60]))
+    assert math.isnan(time_to_voltage_min(t, v[:, 0], 9.0))
+
+
+# ---- the whole capacity test -------------------------------------------------------------------------
+def _log(end_min=170.0, weak_at=120.0, n_blocks=4, stop_v_cell=1.75, temp=25.0, series=4):
+    """Blocks fall linearly from 2.10 to the end voltage at end_min; one weak block gets there at weak_at."""
+    t = np.arange(0, end_min + 1e-9, 10.0)
+    if t[-1] != end_min:
+        t = np.append(t, end_min)
+    per_cell = 2.10 - (2.10 - stop_v_cell) * t / end_min
+    blocks = np.tile(per_cell[:, None] * 6, (1, n_blocks))
+    blocks[:, 1] = (2.10 - (2.10 - 1.75) * t / weak_at) * 6
+    bank = blocks.sum(axis=1) * series / n_blocks
+    return dict(elapsed_min=t, bank_voltage_v=bank, current_a=np.full(t.size, 50.0), block_ids=block_ids_for(n_blocks, 1),
+                block_voltage_v=blocks, pilot_temp_c=np.full(t.size, temp))
+
+
+def _test(**over):
+    kw = dict(rated_minutes=180.0, end_minute=170.0, start_temp_c=25.0, test_current_a=50.0,
+              end_voltage_per_cell_v=1.75, cells_per_block=6, series=4)
+    log = _log(end_min=over.get("end_minute", 170.0), stop_v_cell=over.pop("stop_v_cell", 1.75))
+    kw.update(log)
+    kw.update(over)
+    return CapacityTest(**kw)
+
+
+def test_analyse_end_voltage_and_weak_block():
+    res = analyse_capacity_test(_test())
+    assert res.ended_by == "end-voltage" and not res.lower_bound
+    assert res.capacity_percent == pytest.approx(170 / 180 * 100)  # 25 °C: factor 1 (IEEE 485 Table 1, from memory)
+    assert res.first_block == "S1-02"
+    assert res.early_blocks == ("S1-02",)  # 120 min < 0.9 x 170 min (criterion: common practice, no source)
+    assert res.block_minutes[1] == pytest.approx(120.0)
+    codes = [f.code for f in res.findings]
+    assert "block-fell-away-early" in codes and "capacity-test-yearly" not in codes
+    early = next(f for f in res.findings if f.code == "block-fell-away-early")
+    assert early.subject == "S1-02" and early.index == 1
+    assert status_of(res.findings) == "attention"
+
+
+def test_analyse_stopped_at_rated_time_is_lower_bound():
+    res = analyse_capacity_test(_test(end_minute=180.0, stop_v_cell=1.85))
+    assert res.ended_by == "rated-time" and res.lower_bound  # IEEE 450: run to the end voltage (from memory)
+    # bank voltage per cell: three blocks at 1.85 and the weak one at 2.10 - 0.35 x 180/120 V/cell
+    assert res.final_v_per_cell == pytest.approx((3 * 1.85 + 2.10 - 0.35 * 180 / 120) / 4)
+    assert any(f.code == "stopped-at-rated-time" and "at least 100.0 %" in f.message for f in res.findings)
+    res2 = analyse_capacity_test(_test(end_minute=100.0, stop_v_cell=1.90))
+    assert res2.ended_by == "stopped-early"
+    # 55 °C is above the warmest row of IEEE 485 Table 1 (125 °F, from memory): clamped and said so
+    hot = analyse_capacity_test(_test(start_temp_c=55.0))
+    assert hot.factor == pytest.approx(0.85) and "temperature-outside-table" in [f.code for f in hot.findings]
+
+
+def test_criteria_replace_yearly_and_drop():
+    # IEEE 450: replace below 80 % [text]; test yearly below 90 % or after a drop of more than 10 % (from memory)
+    res = analyse_capacity_test(_test(end_minute=140.0))
+    assert res.capacity_percent == pytest.approx(140 / 180 * 100)
+    assert status_of(res.findings) == "fail"
+    assert worst(res.findings).code == "capacity-below-replacement"
+    res = analyse_capacity_test(_test(end_minute=155.0))
+    assert "capacity-test-yearly" in [f.code for f in res.findings]
+    res = analyse_capacity_test(_test(end_minute=170.0), baseline_percent=106.0)
+    assert res.drop_points == pytest.approx(106.0 - 170 / 180 * 100)
+    assert "capacity-drop" in [f.code for f in res.findings]
+    res = analyse_capacity_test(_test(end_minute=170.0), baseline_percent=100.0)
+    assert "capacity-drop" not in [f.code for f in res.findings]
+    strict = CapacityCriteria(replace_below_percent=95.0)
+    assert analyse_capacity_test(_test(), criteria=strict).criteria.replace_below_percent == 95.0
+    assert status_of(analyse_capacity_test(_test(), criteria=strict).findings) == "fail"
+
+
+def test_rate_adjusted_current_checked():
+    # 60 °F, rated current 50 A -> the test current should be 50/1.11 = 45.05 A (IEEE 450, from memory)
+    res = analyse_capacity_test(_test(method="rate-adjusted", start_temp_c=f_to_c(60), rated_current_a=50.0))
+    assert "rate-adjusted-current" in [f.code for f in res.findings]
+    ok = analyse_capacity_test(_test(method="rate-adjusted", start_temp_c=f_to_c(60), rated_current_a=50.0,
+                                     test_current_a=50 / 1.11, current_a=np.full(18, 50 / 1.11)))
+    assert "rate-adjusted-current" not in [f.code for f in ok.findings]
+    assert ok.capacity_percent == pytest.approx(170 / 180 * 100)
+
+
+def test_capacity_test_validation_lists_every_field():
+    with pytest.raises(SpecError) as ei:
+        _test(rated_minutes=0.0, series=0, method="x", elapsed_min=np.r_[0.0, 10.0, 5.0])
+    fields_ = {p.field for p in ei.value.problems}
+    assert {"rated_minutes", "series", "method", "elapsed_min", "bank_voltage_v"} <= fields_
+    assert any("increase" in p.expected for p in ei.value.problems)
+
+
+# ---- comparison with the model ----------------------------------------------------------------------
+MM = Kibam(0.315, 1.24, 100.0)  # Manwell & McGowan 1993 indicative lead-acid values (REFERENCES.md [text])
+
+
+def _runtime_ref(kb, current, factor=1.0):
+    """Independent root of q(T)/factor = I T with scipy.optimize.brentq (M&M 1993 closed form)."""
+    c, k, q = kb.c, kb.k_per_h, kb.q_max_ah / factor
+
+    def g(t):
+        return q * k * c * t / (1 - math.exp(-k * t) + c * (k * t - 1 + math.exp(-k * t))) - current * t
+    return brentq(g, 1e-6, 1e4, xtol=1e-14)
+
+
+def test_compare_with_model_check_value():
+    # check value q(1 h) = 44.519 Ah for q_max = 100 (Manwell & McGowan 1993 values, REFERENCES.md [text])
+    cmp = compare_with_model(MM, current_per_string_a=44.519, temp_c=25.0, measured_minutes=54.0,
+                             rated_minutes=60.0, design_life_25c_years=20.0)
+    assert cmp.predicted_minutes == pytest.approx(60.0, abs=0.01)
+    assert cmp.health == pytest.approx(0.9, abs=2e-4)
+    # refit keeps c and k and lasts the measured runtime (checked with brentq, independent of Kibam.runtime_h)
+    assert cmp.refit.c == MM.c and cmp.refit.k_per_h == MM.k_per_h
+    assert _runtime_ref(cmp.refit, 44.519) * 60 == pytest.approx(54.0, rel=1e-8)
+    assert cmp.effective_capacity_ah == pytest.approx(float(cmp.refit.capacity_ah(1.0)))
+    assert cmp.remaining_life_years == pytest.approx((0.9 - 0.8) / (0.2 / 20), rel=2e-3)
+
+
+def test_compare_with_model_cold():
+    # 60 °F: the model's q_max is divided by 1.11 (IEEE 485 Table 1, from memory); brentq as reference
+    pred = _runtime_ref(MM, 30.0, factor=1.11) * 60
+    cmp = compare_with_model(MM, current_per_string_a=30.0, temp_c=f_to_c(60), measured_minutes=pred,
+                             rated_minutes=120.0, design_life_25c_years=20.0, avg_temp_c=35.0)
+    assert cmp.predicted_minutes == pytest.approx(pred, rel=1e-9)
+    assert cmp.health == pytest.approx(1.0, rel=1e-9)
+    assert cmp.refit.q_max_ah == pytest.approx(MM.q_max_ah, rel=1e-9)  # corrected back to 25 °C
+    # design life at 35 °C halves per 10 °C (common practice, no source): 10 years
+    assert "over 10 years" in cmp.life_rule
+
+
+def test_refit_and_remaining_life():
+    kb = refit_q_max(MM, 20.0, 3.0)
+    assert _runtime_ref(kb, 20.0) == pytest.approx(3.0, rel=1e-10)  # brentq reference
+    # linear rule (benchbook's own, documented): 0.9 health, 20 years design -> 10 years left
+    assert remaining_life_years(0.9, 20.0)[0] == pytest.approx(10.0)
+    yrs, rate, rule = remaining_life_years(0.9, 20.0, age_years=5.0)  # observed 2 %/yr beats 1 %/yr
+    assert yrs == pytest.approx(5.0) and rate == pytest.approx(0.02) and "observed" in rule
+    assert remaining_life_years(0.75, 20.0)[0] == 0.0
+
+
+# ---- readings ------------------------------------------------------------------------------------
+def _blocks(**changes):
+    rows = []
+    for j, bid in enumerate(block_ids_for(6, 1)):
+        kw = dict(block_id=bid, float_voltage_v=2.23, specific_gravity=1.215, temp_c=24.0, ohmic_value=0.40,
+                  connection_uohm=20.0)
+        kw.update(changes.get(bid, {}))
+        rows.append(BlockReading(**kw))
+    return rows
+
+
+def test_readings_equalize_and_spread():
+    blocks = _blocks(**{"S1-02": {"specific_gravity": 1.200}, "S1-05": {"float_voltage_v": 2.12}})
+    res = check_readings(blocks, cells_per_block=1, chemistry="flooded", ambient_temp_c=24.0)
+    # equalize if SG > 0.010 below the mean or float < 2.13 V/cell (REFERENCES.md thresholds, common practice)
+    assert res.equalize == ("S1-02", "S1-05")
+    mean = (5 * sg_corrected(1.215, 24.0) + sg_corrected(1.200, 24.0)) / 6
+    assert res.sg_mean == pytest.approx(mean)
+    assert res.sg_spread == pytest.approx(0.015)
+    assert res.sg_convention == "ieee" and res.sg_reference_c == 25.0
+    dev = res.deviation_v_per_cell[4]
+    assert dev == pytest.approx(2.12 - (5 * 2.23 + 2.12) / 6)
+    assert "float-deviation" in [f.code for f in res.findings if f.subject == "S1-05"]
+    assert status_of(res.findings) == "attention"
+
+
+def test_readings_temperature_ohmic_connection():
+    blocks = _blocks(**{"S1-03": {"temp_c": 35.0, "ohmic_value": 0.50}, "S1-04": {"connection_uohm": 26.0}})
+    base = _blocks()
+    res = check_readings(blocks, cells_per_block=1, chemistry="flooded", ambient_temp_c=24.0, baseline=base)
+    codes = {(f.code, f.subject) for f in res.findings}
+    # > 10 °C above ambient warns of thermal runaway; spread over 3 °C (common practice, no source)
+    assert ("above-ambient", "S1-03") in codes and ("temperature-spread", "S1-03") in codes
+    assert status_of(res.findings) == "fail"
+    # ohmic 20 % or more over baseline: 0.50/0.40 = +25 % (common practice, no source)
+    assert res.ohmic_rise[2] == pytest.approx(0.25)
+    assert ("ohmic-rise", "S1-03") in codes
+    # connection > 20 % above the average: 26 / mean(20,20,20,26,20,20) = 1.238 (common practice, no source)
+    assert res.connection_ratio[3] == pytest.approx(26 / 21)
+    assert ("connection-high", "S1-04") in codes
+
+
+def test_conductance_in_resistance_terms():
+    # conductance is the reciprocal of resistance: 1000 S -> 800 S is a +25 % resistance rise
+    assert resistance_terms(np.array([800.0]), "conductance")[0] == pytest.approx(1 / 800)
+    base = [BlockReading("S1-01", ohmic_value=1000.0), BlockReading("S1-02", ohmic_value=1000.0)]
+    now = [BlockReading("S1-01", ohmic_value=800.0), BlockReading("S1-02", ohmic_value=850.0)]
+    res = check_readings(now, cells_per_block=6, chemistry="agm", ohmic_kind="conductance", baseline=base)
+    assert res.ohmic_rise[0] == pytest.approx(0.25) and res.ohmic_rise[1] == pytest.approx(1000 / 850 - 1)
+    assert [f.subject for f in res.findings if f.code == "ohmic-rise"] == ["S1-01"]
+
+
+def test_sg_ignored_for_vrla_and_after_water():
+    blocks = _blocks(**{"S1-02": {"specific_gravity": 1.150}})
+    vr = check_readings(blocks, cells_per_block=1, chemistry="agm")
+    assert "sg-not-flooded" in [f.code for f in vr.findings] and vr.equalize == ()
+    wa = check_readings(blocks, cells_per_block=1, chemistry="flooded", water_added=True)
+    assert "sg-after-water" in [f.code for f in wa.findings] and math.isnan(wa.sg_mean)
+    nf = check_readings(_blocks(**{"S1-05": {"float_voltage_v": 2.0}}), cells_per_block=1, chemistry="flooded",
+                        on_float=False)
+    assert "not-on-float" in [f.code for f in nf.findings] and nf.equalize == ()
+
+
+def test_block_ids_and_findings():
+    assert block_ids_for(3, 2) == ("S1-01", "S1-02", "S1-03", "S2-01", "S2-02", "S2-03")
+    assert block_ids_for(120, 1)[-1] == "S1-120"
+    assert parse_block_id(" s2-07 ") == (2, 7)
+    with pytest.raises(ModelError, match="S<string>-<position>"):
+        parse_block_id("B7")
+    with pytest.raises(ModelError, match="severity"):
+        Finding("A!A1", "fatal", "x", "y")
+    fs = [Finding("", "info", "i", "a"), Finding("", "warning", "w", "b"), Finding("", "error", "e", "c")]
+    assert [f.code for f in sort_findings(fs)] == ["c", "b", "a"]
+    assert status_of(fs[:1]) == "pass" and status_of(fs[:2]) == "attention"
+    assert fs[1].to_dict() == {"cell": "", "severity": "warning", "message": "w", "code": "b"}
+    assert ReadingsCriteria().sg_below_mean == 0.010
