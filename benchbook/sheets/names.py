@@ -1,0 +1,595 @@
+"""The template contract: every defined name and Excel table benchbook reads or fills.
+
+A template (the intake workbook, a firm's quote template, a field sheet) is
+reached only through **workbook defined names** (one cell each) and **Excel
+tables** with fixed headers that carry their units. A firm may move, restyle or
+rebrand its template freely; as long as the names and headers of its kind of
+workbook exist, benchbook reads and fills it.
+
+The contract is data. Each kind of workbook has one :class:`Contract` in
+:data:`CONTRACTS`, in its own section of this file, holding :class:`NameSpec`
+rows (one per defined name) and :class:`TableSpec` rows (one per table, with a
+:class:`HeaderSpec` per column). Readers validate cell values against these
+rules, the template generator lays the forms out from them, the docs are
+generated from them (:func:`contract_markdown`) and ``benchbook template-check``
+calls :func:`check_template`.
+
+Header matching is tolerant of case, spacing and a few spellings of units
+(``mOhm`` for ``mΩ``, ``degC`` for ``°C``), see :func:`normalize_header`.
+"""
+
+from __future__ import annotations
+
+import difflib
+import importlib.resources
+import os
+import unicodedata
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Optional
+
+from benchbook.errors import TemplateError
+from benchbook.model.battery import CHEMISTRIES
+from benchbook.model.job import APPLICATIONS, CHARGE_SOURCES, Economics, Generator, Job
+
+#: Kinds of value a cell or column may hold.
+KINDS = ("number", "integer", "text", "choice", "fraction")
+
+
+@dataclass(frozen=True)
+class NameSpec:
+    """One workbook defined name: a single input (or output) cell.
+
+    Parameters
+    ----------
+    name : str
+        The defined name, e.g. ``"job_max_dod"``.
+    label : str
+        What the cell holds, in the user's words, without the unit.
+    unit : str
+        Unit shown in brackets after the label (``"V"``, ``"%"``, ``"-"`` for a
+        plain factor, ``""`` for text).
+    kind : str
+        One of :data:`KINDS`. ``"fraction"`` cells hold 0.5 for 50 % and are
+        formatted as a percentage.
+    field : str
+        Dotted path of the dataclass field it fills (``"economics.discount_rate"``).
+    required : bool
+        Must be filled (for ``only_for`` applications, when given).
+    only_for : str
+        When set, ``required`` applies only to jobs of this application; other
+        jobs take ``default``.
+    low, high : float, optional
+        Bounds of a numeric value; ``low_open``/``high_open`` exclude the bound.
+    choices : tuple of str
+        Allowed values of a ``"choice"`` cell (matched case-insensitively).
+    default : Any
+        Value used when an optional cell is blank.
+    typical : str
+        Typical value or guidance shown beside the cell.
+    help : str
+        One-line explanation shown beside the cell.
+    group : str
+        Section of the form it belongs to.
+    """
+
+    name: str
+    label: str
+    unit: str
+    kind: str
+    field: str = ""
+    required: bool = False
+    only_for: str = ""
+    low: Optional[float] = None
+    high: Optional[float] = None
+    low_open: bool = False
+    high_open: bool = False
+    choices: tuple[str, ...] = ()
+    default: Any = None
+    typical: str = ""
+    help: str = ""
+    group: str = ""
+
+    @property
+    def caption(self) -> str:
+        """Label with its unit, as shown on forms: ``"System voltage [V]"``."""
+        return caption(self.label, self.unit)
+
+    @property
+    def expected(self) -> str:
+        """What a good value looks like, for error messages."""
+        return expected_text(self)
+
+    def is_required(self, application: str | None = None) -> bool:
+        """Whether the cell must be filled for a job of ``application``."""
+        if not self.required:
+            return False
+        return not self.only_for or application is None or application == self.only_for
+
+
+@dataclass(frozen=True)
+class HeaderSpec:
+    """One column of an Excel table.
+
+    ``field`` names the dataclass field the column fills; ``key`` tells columns
+    that fill the same field apart (the duration in hours of a rate-table
+    column, the depth of discharge of a cycle-life column). Bounds and kinds are
+    as in :class:`NameSpec`. A column that is not ``required`` may be absent
+    from a template; blank cells in it mean "not given".
+    """
+
+    header: str
+    field: str
+    kind: str
+    required: bool = True
+    low: Optional[float] = None
+    high: Optional[float] = None
+    low_open: bool = False
+    high_open: bool = False
+    choices: tuple[str, ...] = ()
+    key: Optional[float] = None
+    help: str = ""
+    unit: str = ""
+
+    @property
+    def caption(self) -> str:
+        return self.header
+
+    @property
+    def expected(self) -> str:
+        return expected_text(self)
+
+
+@dataclass(frozen=True)
+class TableSpec:
+    """One Excel table (ListObject) with fixed headers.
+
+    Parameters
+    ----------
+    name : str
+        Table name (Excel's "Table Name").
+    headers : tuple of HeaderSpec
+        Its columns, in the order the template lays them out.
+    required : bool
+        The template must contain it.
+    rows : int, optional
+        Exact number of data rows the table has when used (12 months, 8760 hours).
+    sheet : str
+        Sheet the shipped template puts it on (readers do not rely on it).
+    help : str
+        What the table holds.
+    """
+
+    name: str
+    headers: tuple[HeaderSpec, ...]
+    required: bool = True
+    rows: Optional[int] = None
+    sheet: str = ""
+    help: str = ""
+
+    def header(self, field_name: str, key: float | None = None) -> HeaderSpec:
+        for h in self.headers:
+            if h.field == field_name and (key is None or h.key == key):
+                return h
+        raise KeyError(f"table {self.name} has no column for {field_name!r}")
+
+    @property
+    def header_texts(self) -> tuple[str, ...]:
+        return tuple(h.header for h in self.headers)
+
+
+@dataclass(frozen=True)
+class Contract:
+    """All the names and tables of one kind of workbook."""
+
+    kind: str
+    title: str
+    template: str
+    names: tuple[NameSpec, ...]
+    tables: tuple[TableSpec, ...]
+    help: str = ""
+
+    def name(self, name: str) -> NameSpec:
+        for n in self.names:
+            if n.name == name:
+                return n
+        raise KeyError(f"{self.kind} contract has no defined name {name!r}")
+
+    def table(self, name: str) -> TableSpec:
+        for t in self.tables:
+            if t.name == name:
+                return t
+        raise KeyError(f"{self.kind} contract has no table {name!r}")
+
+    def groups(self) -> tuple[str, ...]:
+        """Form sections, in order of first appearance."""
+        return tuple(dict.fromkeys(n.group for n in self.names))
+
+
+# ---- describing values ---------------------------------------------------------------------
+
+def caption(label: str, unit: str) -> str:
+    """``label [unit]``, or the bare label for text (empty unit)."""
+    return f"{label} [{unit}]" if unit else label
+
+
+def _g(x: float) -> str:
+    return f"{x:g}" if abs(x) < 1e6 else f"{x:.0f}"
+
+
+def expected_text(spec: NameSpec | HeaderSpec) -> str:
+    """Plain-words description of a good value for ``spec``: ``"a number from 2 to 1000 V"``."""
+    if spec.kind == "choice":
+        return "one of " + ", ".join(spec.choices)
+    if spec.kind == "text":
+        return "text"
+    noun = {"number": "a number", "integer": "a whole number", "fraction": "a fraction"}[spec.kind]
+    lo, hi = spec.low, spec.high
+    if lo is not None and hi is not None:
+        if not spec.low_open and not spec.high_open:
+            rng = f"from {_g(lo)} to {_g(hi)}"
+        else:
+            rng = (f"above {_g(lo)} and " if spec.low_open else f"from {_g(lo)} to ") + \
+                  (f"below {_g(hi)}" if spec.high_open else f"at most {_g(hi)}")
+    elif lo is not None:
+        rng = f"above {_g(lo)}" if spec.low_open else f"of {_g(lo)} or more"
+    elif hi is not None:
+        rng = f"below {_g(hi)}" if spec.high_open else f"of at most {_g(hi)}"
+    else:
+        rng = ""
+    unit = getattr(spec, "unit", "")
+    suffix = "" if not unit or unit in ("-", "%") or spec.kind == "fraction" else (
+        unit if unit == "°" else f" {unit}")
+    text = " ".join(p for p in (noun, rng) if p) + suffix
+    if spec.kind == "fraction":
+        text += " (0.5 is 50 %)"
+    return text
+
+
+def normalize_header(text: Any) -> str:
+    """Header text reduced for matching: NFKC, case-folded, no spaces, ``mohm``→``mω``, ``degc``→``°c``."""
+    s = unicodedata.normalize("NFKC", str(text if text is not None else "")).casefold()
+    s = "".join(s.split())
+    return s.replace("ohm", "ω").replace("degc", "°c").replace("deg.c", "°c")
+
+
+def closest(text: str, candidates: list[str] | tuple[str, ...]) -> str | None:
+    """The candidate closest to ``text`` (difflib ratio ≥ 0.6), or None."""
+    norm = {normalize_header(c): c for c in candidates}
+    hit = difflib.get_close_matches(normalize_header(text), list(norm), n=1, cutoff=0.6)
+    return norm[hit[0]] if hit else None
+
+
+# =============================================================================================
+# Contract: "intake" — the job workbook an estimator fills (benchbook new / size)
+# =============================================================================================
+
+_JOB, _GEN, _ECON = Job.__dataclass_fields__, Generator(), Economics()
+
+
+def _job_default(name: str) -> Any:
+    return _JOB[name].default
+
+
+def _n(name: str, label: str, unit: str, kind: str, field_: str, group: str, **kw: Any) -> NameSpec:
+    return NameSpec(name=name, label=label, unit=unit, kind=kind, field=field_, group=group, **kw)
+
+
+_G_JOB, _G_SIZE, _G_CHARGE, _G_GEN, _G_ECON, _G_RANDOM = (
+    "Job", "Sizing", "Charging and site", "Backup generator", "Economics", "Standby random load")
+
+INTAKE_NAMES: tuple[NameSpec, ...] = (
+    _n("job_site", "Site", "", "text", "site", _G_JOB, required=True, help="Site name shown on outputs."),
+    _n("job_client", "Client", "", "text", "client", _G_JOB, required=True, help="Client name shown on outputs."),
+    _n("job_application", "Application", "", "choice", "application", _G_JOB, required=True,
+       choices=APPLICATIONS,
+       help="cyclic: daily cycling, sized on autonomy days. standby: float service, sized on the duty cycle."),
+    _n("job_system_voltage_v", "System voltage", "V", "number", "system_voltage_v", _G_SIZE, required=True,
+       low=2, high=1000, typical="12, 24, 48, 110, 125", help="Nominal DC voltage of the bank."),
+    _n("job_autonomy_days", "Autonomy", "days", "number", "autonomy_days", _G_SIZE, required=True,
+       only_for="cyclic", low=0, low_open=True, high=30, typical="2–5 off-grid",
+       help="Days the bank carries the load with no charging. Standby: blank = length of the duty cycle."),
+    _n("job_max_dod", "Maximum depth of discharge", "%", "fraction", "max_dod", _G_SIZE, required=True,
+       only_for="cyclic", low=0, low_open=True, high=1, default=1.0, typical="50 %–80 %",
+       help="Deepest discharge allowed at the end of autonomy. Standby: blank = 100 % (the end voltage governs)."),
+    _n("job_min_temp_c", "Lowest battery temperature", "°C", "number", "min_temp_c", _G_SIZE, required=True,
+       low=-40, high=60, help="Coldest electrolyte temperature to size for (capacity falls when cold)."),
+    _n("job_design_margin", "Design margin", "-", "number", "design_margin", _G_SIZE, required=True,
+       low=1, high=2, typical="1.10–1.15", help="Margin for load growth and less-than-optimum conditions (IEEE 485)."),
+    _n("job_aging_factor", "Aging factor", "-", "number", "aging_factor", _G_SIZE, required=True,
+       low=1, high=2, typical="1.25", help="1.25 keeps the load carried until the bank falls to 80 % capacity (IEEE 485)."),
+    _n("job_end_voltage_per_cell_v", "End voltage", "V/cell", "number", "end_voltage_per_cell_v", _G_SIZE,
+       required=True, low=1.6, high=1.95, typical="1.75–1.85",
+       help="Lowest voltage per cell the load equipment accepts at the end of discharge."),
+    _n("job_inverter_efficiency", "Inverter / DC converter efficiency", "%", "fraction", "inverter_efficiency",
+       _G_SIZE, required=True, only_for="cyclic", low=0, low_open=True, high=1, default=1.0, typical="90 %–95 %",
+       help="Load energy ÷ energy drawn from the bank. Standby (DC loads in amperes): blank = 100 %."),
+    _n("job_window_min_v", "DC input window, low end", "V", "number", "window_min_v", _G_SIZE,
+       low=0, low_open=True, high=1500, default=_job_default("window_min_v"),
+       help="Lowest bank voltage the charger/inverter accepts. Blank = not checked."),
+    _n("job_window_max_v", "DC input window, high end", "V", "number", "window_max_v", _G_SIZE,
+       low=0, low_open=True, high=1500, default=_job_default("window_max_v"),
+       help="Highest bank voltage the charger/inverter accepts (while equalizing, too). Blank = not checked."),
+    _n("job_max_parallel", "Most parallel strings", "strings", "integer", "max_parallel", _G_SIZE,
+       low=1, high=50, default=_job_default("max_parallel"), typical="3 or fewer advised",
+       help="Largest number of parallel strings to consider."),
+    _n("job_charge_source", "Charge source", "", "choice", "charge_source", _G_CHARGE, choices=CHARGE_SOURCES,
+       default=_job_default("charge_source"),
+       help="solar: fill Energy by month on the Loads sheet. grid / generator: give the charger power."),
+    _n("job_charger_power_w", "Charger power", "W", "number", "charger_power_w", _G_CHARGE,
+       low=0, low_open=True, high=1e7, default=_job_default("charger_power_w"),
+       help="DC output power of the charger (grid or generator charging)."),
+    _n("job_latitude_deg", "Site latitude", "°", "number", "latitude_deg", _G_CHARGE,
+       low=-90, high=90, default=_job_default("latitude_deg"), help="For the synthetic day-length shape."),
+    _n("job_avg_temp_c", "Mean battery temperature over the year", "°C", "number", "avg_temp_c", _G_CHARGE,
+       low=-40, high=60, default=_job_default("avg_temp_c"),
+       help="Sets float life: life roughly halves per 10 °C above 25 °C."),
+    _n("job_gen_power_w", "Generator charging power", "W", "number", "generator.power_w", _G_GEN,
+       low=0, low_open=True, high=1e7, default=None,
+       help="Filling this adds a backup generator; blank = no generator."),
+    _n("job_gen_start_soc", "Generator starts at state of charge", "%", "fraction", "generator.start_soc", _G_GEN,
+       low=0, high=1, high_open=True, default=_GEN.start_soc),
+    _n("job_gen_stop_soc", "Generator stops at state of charge", "%", "fraction", "generator.stop_soc", _G_GEN,
+       low=0, low_open=True, high=1, default=_GEN.stop_soc),
+    _n("job_gen_fuel_cost_per_kwh", "Generator fuel cost", "currency/kWh", "number", "generator.fuel_cost_per_kwh",
+       _G_GEN, low=0, high=1e4, default=_GEN.fuel_cost_per_kwh, help="Fuel and running cost per kWh delivered."),
+    _n("job_horizon_years", "Costing horizon", "years", "integer", "economics.horizon_years", _G_ECON,
+       low=1, high=100, default=_ECON.horizon_years),
+    _n("job_discount_rate", "Discount rate (real)", "%", "fraction", "economics.discount_rate", _G_ECON,
+       low=0, high=1, high_open=True, default=_ECON.discount_rate),
+    _n("job_energy_price_per_kwh", "Charging energy price", "currency/kWh", "number",
+       "economics.energy_price_per_kwh", _G_ECON, low=0, high=1e4, default=_ECON.energy_price_per_kwh),
+    _n("job_om_per_year", "Operation and maintenance", "currency/year", "number", "economics.om_per_year", _G_ECON,
+       low=0, high=1e9, default=_ECON.om_per_year),
+    _n("job_install_cost", "Installation and balance of system", "currency", "number", "economics.install_cost",
+       _G_ECON, low=0, high=1e10, default=_ECON.install_cost),
+    _n("job_currency", "Currency", "", "text", "economics.currency", _G_ECON, default=_ECON.currency,
+       help="Label written on costs, e.g. USD, EUR."),
+    _n("job_replacement_labour_per_block", "Replacement labour", "currency/block", "number",
+       "economics.replacement_labour_per_block", _G_ECON, low=0, high=1e7,
+       default=_ECON.replacement_labour_per_block),
+    _n("job_random_load_a", "Random load current", "A", "number", "random_load.current_a", _G_RANDOM,
+       low=0, low_open=True, high=1e5, default=None,
+       help="IEEE 485 random (momentary) load, added to the controlling section. Blank = none."),
+    _n("job_random_load_minutes", "Random load duration", "min", "number", "random_load.minutes", _G_RANDOM,
+       low=0, low_open=True, high=1440, default=None, typical="1",
+       help="Needed when a random load current is given."),
+)
+
+#: Rate-table durations of the Batteries table. [h]
+RATE_HOURS: tuple[float, ...] = (1 / 60, 0.25, 0.5, 1.0, 3.0, 5.0, 8.0, 10.0, 20.0, 100.0)
+#: Cycle-life depths of discharge of the Batteries table. [-]
+CYCLE_DODS: tuple[float, ...] = (0.2, 0.5, 0.8, 1.0)
+
+
+def rate_header(hours: float) -> str:
+    """Header of a rate-table column: ``"1 min rate [Ah]"``, ``"10 h rate [Ah]"``."""
+    if hours < 1:
+        return f"{hours * 60:g} min rate [Ah]"
+    return f"{hours:g} h rate [Ah]"
+
+
+def cycle_header(dod: float) -> str:
+    """Header of a cycle-life column: ``"Cycles at 50% DoD"``."""
+    return f"Cycles at {dod * 100:g}% DoD"
+
+
+def _h(header: str, field_: str, kind: str = "number", **kw: Any) -> HeaderSpec:
+    return HeaderSpec(header=header, field=field_, kind=kind, **kw)
+
+
+BATTERY_HEADERS: tuple[HeaderSpec, ...] = (
+    _h("Model", "model", "text", help="Model name as it appears on quotes."),
+    _h("Chemistry", "chemistry", "choice", choices=CHEMISTRIES),
+    _h("Block voltage [V]", "block_voltage_v", low=2, high=12, help="2, 4, 6, 8 or 12 V."),
+    _h("End voltage [V/cell]", "rate_end_voltage_per_cell_v", low=1.6, high=1.95,
+       help="End voltage per cell the rate columns are stated to."),
+    *(_h(rate_header(h), "rate_table", required=False, low=0, low_open=True, key=h,
+         help="Capacity at constant current to the end voltage, 25 °C; blank = not rated.") for h in RATE_HOURS),
+    *(_h(cycle_header(d), "cycle_life", required=False, low=0, low_open=True, key=d,
+         help="Cycles to end of life at this depth of discharge; blank = not given.") for d in CYCLE_DODS),
+    _h("Internal resistance [mΩ]", "internal_resistance_mohm", low=0, low_open=True, help="Per block, charged."),
+    _h("Float [V/cell]", "float_voltage_per_cell_v", low=2.15, high=2.35),
+    _h("Absorption [V/cell]", "absorption_voltage_per_cell_v", low=2.25, high=2.6),
+    _h("Temp. comp. [mV/°C/cell]", "temp_comp_mv_per_c_per_cell", low=-10, high=0),
+    _h("Max charge [A]", "max_charge_current_a", low=0, low_open=True),
+    _h("Self-discharge [%/month]", "self_discharge_pct_per_month", low=0, high=30),
+    _h("Weight [kg]", "weight_kg", low=0, low_open=True),
+    _h("Length [mm]", "length_mm", low=0, low_open=True),
+    _h("Width [mm]", "width_mm", low=0, low_open=True),
+    _h("Height [mm]", "height_mm", low=0, low_open=True),
+    _h("Unit price [per block]", "unit_price", low=0, help="In the job's currency."),
+    _h("Float life [years]", "float_life_years", low=0, low_open=True, help="Design life on float at 25 °C."),
+    _h("Description", "description", "text", required=False),
+)
+
+MONTHS: tuple[str, ...] = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
+#: Hours in the year of an hourly profile (365 days). [h]
+HOURS_PER_YEAR = 8760
+
+INTAKE_TABLES: tuple[TableSpec, ...] = (
+    TableSpec("Loads", (
+        _h("Load", "name", "text"),
+        _h("Power [W]", "power_w", low=0, low_open=True, high=1e7),
+        _h("Hours per day", "hours_per_day", low=0, high=24, unit="h"),
+    ), sheet="Loads", help="Daily load list (cyclic jobs): one row per item, blank rows ignored."),
+    TableSpec("DutyCycle", (
+        _h("Current [A]", "current_a", low=0, high=1e5),
+        _h("Minutes", "minutes", low=0, low_open=True, high=1e5, unit="min"),
+    ), sheet="Loads", help="Standby duty cycle (IEEE 485): periods in time order, blank rows ignored."),
+    TableSpec("ChargeByMonth", (
+        _h("Month", "month", "text"),
+        _h("Energy [kWh/day]", "energy_kwh_per_day", low=0, high=1e5),
+        _h("Battery temperature [°C]", "temp_c", required=False, low=-40, high=60),
+    ), rows=12, sheet="Loads",
+        help="Solar jobs: mean daily charging energy from the array by month, DC side; "
+             "optional monthly battery temperature."),
+    TableSpec("Hourly", (
+        _h("Hour", "hour", low=0, high=HOURS_PER_YEAR),
+        _h("Load [W]", "load_w", low=0, high=1e8),
+        _h("Charge [W]", "charge_w", low=0, high=1e8),
+    ), required=False, rows=HOURS_PER_YEAR, sheet="Hourly",
+        help="Optional explicit year: load and available charging power on the DC side, every hour."),
+    TableSpec("Batteries", BATTERY_HEADERS, sheet="Batteries",
+              help="Catalog to choose from; one row per battery model, blank rows ignored."),
+)
+
+INTAKE = Contract(
+    kind="intake",
+    title="Job intake workbook",
+    template="intake.xlsx",
+    names=INTAKE_NAMES,
+    tables=INTAKE_TABLES,
+    help="What an estimator enters for one job: site, sizing rules, loads or duty cycle, charging, "
+         "costs and the battery catalog.",
+)
+
+# =============================================================================================
+# (Further contracts — "quote", "capacity-test", "readings" — go in their own sections here.)
+# =============================================================================================
+
+#: Every contract, by kind of workbook.
+CONTRACTS: dict[str, Contract] = {c.kind: c for c in (INTAKE,)}
+
+
+def contract(kind: str) -> Contract:
+    """The contract of one kind of workbook (``"intake"``, ...).
+
+    Raises
+    ------
+    TemplateError
+        For an unknown kind, listing the known ones.
+    """
+    try:
+        return CONTRACTS[kind]
+    except KeyError:
+        raise TemplateError(f"unknown kind of workbook {kind!r}; known kinds: {', '.join(CONTRACTS)}") from None
+
+
+def template_bytes(kind: str) -> bytes:
+    """Bytes of the shipped template of ``kind`` (package ``benchbook.templates``)."""
+    return template_path(kind).read_bytes()
+
+
+def template_path(kind: str) -> Path:
+    """Path of the shipped template of ``kind``.
+
+    Installed, the templates live in the package ``benchbook.templates``; in a
+    source checkout they are the repository's ``templates/`` folder.
+    """
+    name = contract(kind).template
+    try:
+        res = importlib.resources.files("benchbook.templates") / name
+        path = Path(os.fspath(res))
+    except (ModuleNotFoundError, TypeError):
+        path = Path(__file__).resolve().parents[2] / "templates" / name
+    if not path.is_file():
+        raise TemplateError(f"shipped template {name} is missing from the installation ({path}); "
+                            "reinstall benchbook or run python -m benchbook.sheets.make_templates")
+    return path
+
+
+# ---- checking a template against its contract -----------------------------------------------
+
+def _detect_kind(wb, tables: dict) -> Contract:
+    from benchbook.sheets.tables import find_table, resolve_name  # noqa: PLC0415
+
+    def score(c: Contract) -> int:
+        return (sum(resolve_name(wb, n.name).problem != "missing" for n in c.names)
+                + sum(find_table(tables, t.name) is not None for t in c.tables))
+
+    return max(CONTRACTS.values(), key=score)
+
+
+def check_template(workbook: Any, kind: str | None = None, *, strict: bool = False) -> list[str]:
+    """Every way ``workbook`` breaks the contract of ``kind``, one sentence each.
+
+    Parameters
+    ----------
+    workbook : path or openpyxl Workbook
+        The template (or a filled-in workbook) to check. A path is opened
+        read-only and never modified.
+    kind : str, optional
+        ``"intake"``, ...; by default the contract whose names and tables the
+        workbook holds most of.
+    strict : bool
+        Also report missing optional names, tables and headers (the shipped
+        templates must have them all).
+
+    Returns
+    -------
+    list of str
+        Empty when the workbook fulfils the contract. Problems found: a
+        missing name; a name that points to ``#REF!``, to more than one cell,
+        to another workbook, to a missing sheet, or to a constant; two names on
+        one cell; a missing table; a missing or edited header (with the closest
+        expected header, found by difflib); a fixed-length table with the
+        wrong number of rows.
+    """
+    from benchbook.sheets import tables as T  # noqa: PLC0415
+
+    if isinstance(workbook, (str, os.PathLike)):
+        with T.Book(workbook) as book:
+            return _check(book._wb, book.tables, kind, strict)
+    return _check(workbook, T.tables_from_openpyxl(workbook), kind, strict)
+
+
+def _check(wb, tables: dict, kind: str | None, strict: bool) -> list[str]:
+    from benchbook.sheets.tables import find_table, match_headers, resolve_name  # noqa: PLC0415
+
+    c = contract(kind) if kind else _detect_kind(wb, tables)
+    out: list[str] = []
+    seen: dict[str, str] = {}
+    for spec in c.names:
+        t = resolve_name(wb, spec.name)
+        if t.problem == "missing":
+            if spec.required or strict:
+                out.append(f"defined name {spec.name} ({spec.caption}) is missing; "
+                           "expected a workbook name for one input cell")
+            continue
+        if t.problem:
+            out.append(f"defined name {spec.name} ({spec.caption}) points to {t.reason}; "
+                       "expected one cell of this workbook")
+            continue
+        where = t.cell.where
+        if where in seen:
+            out.append(f"{where}: defined names {seen[where]} and {spec.name} point to the same cell; "
+                       "expected one cell each")
+        seen.setdefault(where, spec.name)
+    for ts in c.tables:
+        info = find_table(tables, ts.name)
+        if info is None:
+            if ts.required or strict:
+                out.append(f"table {ts.name} is missing; expected an Excel table with headers "
+                           + ", ".join(ts.header_texts))
+            continue
+        _, header_problems = match_headers(info, ts)
+        for hp in header_problems:
+            if hp.found is not None:
+                out.append(f'{hp.cell.where}: table {ts.name} header "{hp.found}" is not in the contract; '
+                           f'did you mean "{hp.expected}"?')
+            elif hp.required or strict:
+                out.append(f'{info.where}: table {ts.name} has no header "{hp.expected}" '
+                           f"(headers found: {', '.join(info.headers)})")
+        if ts.rows is not None and info.n_rows != ts.rows:
+            out.append(f"{info.where}: table {ts.name} has {info.n_rows} data rows; expected {ts.rows}")
+    return out
+
+
+def contract_markdown(kind: str) -> str:
+    """The contract of ``kind`` as Markdown tables, for the docs."""
+    c = contract(kind)
+    lines = [f"## {c.title} (`{c.kind}`)", "", c.help, "", "### Defined names", "",
+             "| name | cell holds | required | allowed values | blank means |", "|---|---|---|---|---|"]
+    for n in c.names:
+        req = ("yes" + (f" ({n.only_for})" if n.only_for else "")) if n.required else "no"
+        blank = "" if n.required and not n.only_for else ("—" if n.default is None else f"{n.default:g}"
+                                                           if isinstance(n.default, float) else str(n.default))
+        lines.append(f"| `{n.name}` | {n.caption} | {req} | {n.expected} | {blank} |")
+    for t in c.tables:
+        lines += ["", f"### Table `{t.name}`" + ("" if t.required else " (optional)"), "", t.help, "",
+                  "| header | allowed values | required column |", "|---|---|---|"]
+        lines += [f"| `{h.header}` | {h.expected} | {'yes' if h.required else 'no'} |" for h in t.headers]
+        if t.rows:
+            lines.append(f"\nExactly {t.rows} data rows.")
+    return "\n".join(lines) + "\n"
