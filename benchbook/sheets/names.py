@@ -445,11 +445,116 @@ INTAKE = Contract(
 )
 
 # =============================================================================================
+# Contract: "quote" — the firm's quote template that benchbook fills (benchbook quote)
+# =============================================================================================
+# Every name points at one cell that benchbook writes. Areas that hold several rows (safety
+# cautions, assumptions, the arrangement drawing) are given by two names each, the top-left
+# (``*_first``) and bottom-right (``*_last``) cells of the area.
+
+_G_Q_HEAD, _G_Q_BANK, _G_Q_PERF, _G_Q_TOT, _G_Q_SITE, _G_Q_AREA = (
+    "Customer and quote", "Bank configuration", "Expected performance", "Totals", "Site requirements", "Areas")
+
+
+def _q(name: str, label: str, unit: str, kind: str, field_: str, group: str, required: bool = False,
+       help: str = "") -> NameSpec:
+    return NameSpec(name=name, label=label, unit=unit, kind=kind, field=field_, group=group, required=required,
+                    help=help)
+
+
+QUOTE_NAMES: tuple[NameSpec, ...] = (
+    _q("quote_client", "Client", "", "text", "job.client", _G_Q_HEAD, True),
+    _q("quote_site", "Site", "", "text", "job.site", _G_Q_HEAD, True),
+    _q("quote_application", "Application", "", "text", "job.application", _G_Q_HEAD),
+    _q("quote_system_voltage_v", "System voltage", "V", "number", "job.system_voltage_v", _G_Q_HEAD),
+    _q("quote_number", "Quote number", "", "text", "terms.number", _G_Q_HEAD, True),
+    _q("quote_date", "Quote date", "", "number", "terms.date", _G_Q_HEAD, True, "A date value."),
+    _q("quote_valid_until", "Valid until", "", "number", "terms.valid_days", _G_Q_HEAD, help="A date value."),
+    _q("quote_option_rank", "Option rank", "-", "integer", "rank", _G_Q_HEAD),
+    _q("quote_currency", "Currency", "", "text", "job.economics.currency", _G_Q_HEAD, True),
+    _q("quote_battery_model", "Battery model", "", "text", "option.spec.model", _G_Q_BANK, True),
+    _q("quote_battery_description", "Battery type", "", "text", "option.spec.description", _G_Q_BANK),
+    _q("quote_bank_series", "Blocks in series per string", "-", "integer", "option.series", _G_Q_BANK, True),
+    _q("quote_bank_parallel", "Parallel strings", "-", "integer", "option.parallel", _G_Q_BANK, True),
+    _q("quote_bank_blocks", "Blocks in total", "-", "integer", "option.blocks", _G_Q_BANK, True),
+    _q("quote_bank_voltage_v", "Nominal bank voltage", "V", "number", "option.series × block voltage", _G_Q_BANK),
+    _q("quote_nominal_kwh", "Nominal energy", "kWh", "number", "option.nominal_kwh", _G_Q_BANK, True),
+    _q("quote_usable_kwh", "Usable energy at the design rate and minimum temperature", "kWh", "number",
+       "option.usable_kwh", _G_Q_BANK, True),
+    _q("quote_string_current_a", "Current per string", "A", "number", "option.string_current_a", _G_Q_BANK),
+    _q("quote_c_rate", "Per-string C-rate", "1/h", "number", "option.c_rate", _G_Q_BANK),
+    _q("quote_parallel_gain", "Parallel gain", "-", "number", "option.parallel_gain", _G_Q_BANK),
+    _q("quote_round_trip_efficiency", "Round-trip efficiency", "%", "fraction", "round_trip_efficiency",
+       _G_Q_PERF, True),
+    _q("quote_service_life_years", "Service life", "years", "number", "service_life_years", _G_Q_PERF, True),
+    _q("quote_life_limited_by", "Life limited by", "", "text", "life_limited_by", _G_Q_PERF, True),
+    _q("quote_replacements", "Replacements in the horizon", "", "text", "replacements", _G_Q_PERF, True),
+    _q("quote_horizon_years", "Costing horizon", "years", "integer", "job.economics.horizon_years", _G_Q_PERF),
+    _q("quote_cost_per_kwh", "Cost per delivered kWh", "currency/kWh", "number", "cost_per_kwh", _G_Q_PERF, True),
+    _q("quote_unserved_kwh", "Unserved energy", "kWh/year", "number", "unserved_kwh", _G_Q_PERF),
+    _q("quote_subtotal", "Subtotal (formula)", "currency", "number", "formula", _G_Q_TOT, True),
+    _q("quote_discount_rate", "Discount rate (editable)", "%", "fraction", "terms.discount_rate", _G_Q_TOT, True),
+    _q("quote_discount", "Discount (formula)", "currency", "number", "formula", _G_Q_TOT, True),
+    _q("quote_tax_rate", "Tax rate (editable)", "%", "fraction", "terms.tax_rate", _G_Q_TOT, True),
+    _q("quote_tax", "Tax (formula)", "currency", "number", "formula", _G_Q_TOT, True),
+    _q("quote_grand_total", "Grand total (formula)", "currency", "number", "formula", _G_Q_TOT, True),
+    _q("quote_weight_kg", "Weight of the blocks", "kg", "number", "option.weight_kg", _G_Q_SITE, True),
+    _q("quote_footprint_m2", "Footprint of the blocks", "m²", "number", "option.footprint_m2", _G_Q_SITE, True),
+    _q("quote_floor_loading_kg_m2", "Floor loading", "kg/m²", "number", "weight ÷ footprint", _G_Q_SITE, True),
+    _q("quote_short_circuit_a", "Prospective short-circuit current", "A", "number", "safety.bank_short_circuit",
+       _G_Q_SITE, True),
+    _q("quote_interrupt_rating_ka", "Interrupt rating, at least", "kA", "number", "safety.interrupt_rating_a",
+       _G_Q_SITE, True),
+    _q("quote_airflow_float_m3h", "Airflow on float (IEC 62485-2)", "m³/h", "number", "safety.bank_ventilation",
+       _G_Q_SITE, True),
+    _q("quote_airflow_boost_m3h", "Airflow on boost (IEC 62485-2)", "m³/h", "number", "safety.bank_ventilation",
+       _G_Q_SITE, True),
+    _q("quote_vent_float_cm2", "Natural-vent opening each, float", "cm²", "number", "safety.vent_opening_cm2",
+       _G_Q_SITE, True),
+    _q("quote_vent_boost_cm2", "Natural-vent opening each, boost", "cm²", "number", "safety.vent_opening_cm2",
+       _G_Q_SITE, True),
+    _q("quote_ventilation_basis", "Ventilation basis", "", "text", "safety.bank_ventilation", _G_Q_SITE),
+    _q("quote_cautions_first", "Safety cautions, top-left cell", "", "text", "safety.cautions", _G_Q_AREA, True,
+       "Heading in the first column, text in the next (which may be merged across)."),
+    _q("quote_cautions_last", "Safety cautions, bottom-right cell", "", "text", "safety.cautions", _G_Q_AREA, True),
+    _q("quote_assumptions_first", "Assumptions, top-left cell", "", "text", "assumptions", _G_Q_AREA, True,
+       "Label in the first column, value or note in the next (which may be merged across)."),
+    _q("quote_assumptions_last", "Assumptions, bottom-right cell", "", "text", "assumptions", _G_Q_AREA, True),
+    _q("quote_arrangement_first", "Arrangement drawing, top-left cell", "", "text", "option.series/parallel",
+       _G_Q_AREA, help="Columns: string label, negative bus, one per block, fuse, positive bus; "
+                       "the first row is the styled sample string."),
+    _q("quote_arrangement_last", "Arrangement drawing, bottom-right cell", "", "text", "option.series/parallel",
+       _G_Q_AREA),
+    _q("quote_arrangement_caption", "Arrangement caption", "", "text", "option.series/parallel", _G_Q_AREA),
+)
+
+QUOTE_TABLES: tuple[TableSpec, ...] = (
+    TableSpec("QuoteItems", (
+        _h("Item", "item", "text"),
+        _h("Description", "description", "text"),
+        _h("Qty", "quantity", low=0),
+        _h("Unit", "unit", "text"),
+        _h("Unit price", "unit_price", low=0, help="In the quote's currency."),
+        _h("Line total", "total", help="Formula: Qty × Unit price."),
+    ), sheet="Quote", help="Bill of materials: benchbook fills the first rows and hides the blank ones; "
+                           "quantities and unit prices are values, line totals formulas."),
+)
+
+QUOTE = Contract(
+    kind="quote",
+    title="Quote template",
+    template="quote.xlsx",
+    names=QUOTE_NAMES,
+    tables=QUOTE_TABLES,
+    help="A firm's quote: benchbook writes the job, the bank option, the bill of materials with formula totals, "
+         "site requirements, safety cautions and assumptions into these cells; layout and styling are the firm's.",
+)
+
+# =============================================================================================
 # (Further contracts — "quote", "capacity-test", "readings" — go in their own sections here.)
 # =============================================================================================
 
 #: Every contract, by kind of workbook.
-CONTRACTS: dict[str, Contract] = {c.kind: c for c in (INTAKE,)}
+CONTRACTS: dict[str, Contract] = {c.kind: c for c in (INTAKE, QUOTE)}
 
 
 def contract(kind: str) -> Contract:
