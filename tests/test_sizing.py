@@ -211,3 +211,195 @@ def test_autonomy_rejects_bad_inputs():
     with pytest.raises(ModelError, match="either in Wh"):
         autonomy_size(spec, autonomy_days=2, system_voltage_v=24, max_dod=0.5, daily_wh=1, daily_ah=1)
     assert series_count(spec, 48) == 4 and series_count(spec, 30) is None
+
+
+# ---------------------------------------------------------------------------------
+# Option enumeration (benchbook.model.options)
+# ---------------------------------------------------------------------------------
+from benchbook.model.options import (FLAG_PARALLEL, BankOption, candidate_grid, enumerate_options, first_enough,
+                                     rank_options, rejected_batteries, score_autonomy)
+
+
+def cyclic_job(**kw):
+    """An invented off-grid cabin job (demo data only)."""
+    base = dict(site="Invented Ridge Cabin", client="Demo Client", application="cyclic", system_voltage_v=48,
+                autonomy_days=3, max_dod=0.5, min_temp_c=10.0, design_margin=1.1, aging_factor=1.25,
+                end_voltage_per_cell_v=1.75, inverter_efficiency=0.9,
+                loads=(Load("fridge", 100, 24), Load("lights", 200, 5)))
+    base.update(kw)
+    return Job(**base)
+
+
+def standby_job(**kw):
+    """An invented telecom shelter duty cycle (demo data only)."""
+    base = dict(site="Invented Relay Hut", client="Demo Client", application="standby", system_voltage_v=48,
+                autonomy_days=0, max_dod=1.0, min_temp_c=25.0, design_margin=1.0, aging_factor=1.0,
+                end_voltage_per_cell_v=1.75, inverter_efficiency=1.0, duty_cycle=(DutyPeriod(240.0, 60.0),))
+    base.update(kw)
+    return Job(**base)
+
+
+def test_cyclic_options_equal_the_scalar_autonomy_sizing():
+    job = cyclic_job()
+    opts = enumerate_options(job)
+    assert len(opts) == 6 and all(isinstance(o, BankOption) for o in opts)
+    tf = 1.19  # IEEE 485 Table 1 at 10 °C / 50 °F (from memory; also in published PV worksheets)
+    for o in opts:
+        r = autonomy_size(o.spec, autonomy_days=3, system_voltage_v=48, max_dod=0.5, daily_wh=job.daily_load_wh,
+                          efficiency=0.9, temp_factor=tf, design_margin=1.1, aging_factor=1.25, max_parallel=8)
+        assert o.temp_factor == pytest.approx(tf)
+        assert (o.series, o.parallel) == (r.series, r.parallel)
+        assert o.blocks == r.series * r.parallel
+        assert o.capacity_ah == pytest.approx(r.chosen.bank_capacity_ah, rel=1e-12)
+        assert o.required_ah == pytest.approx(r.required_ah, rel=1e-12)
+        assert o.parallel_gain == pytest.approx(r.parallel_gain, rel=1e-12)
+        assert o.string_current_a == pytest.approx(r.chosen.string_current_a)
+        # usable energy: capacity / temp × DoD / aging × V (the option's definition; common practice, no source)
+        assert o.usable_kwh == pytest.approx(o.capacity_ah / tf * 0.5 / 1.25 * 48 / 1000)
+        assert o.price == pytest.approx(o.blocks * o.spec.unit_price)
+        assert o.weight_kg == pytest.approx(o.blocks * o.spec.weight_kg)
+        assert o.c_rate_basis == ("C10" if o.spec.block_voltage_v == 2 else "C20")
+        assert o.c_rate == pytest.approx(o.string_current_a / o.spec.nominal_ah)
+    # daily load 100 W × 24 h + 200 W × 5 h = 3400 Wh (arithmetic); ÷ 0.9 ÷ 48 V = 78.7 Ah/day
+    assert opts[0].required_ah == pytest.approx(3400 / 0.9 / 48 * 3 / 0.5 * tf * 1.1 * 1.25)
+    prices = [o.price for o in opts if o.feasible]
+    assert prices == sorted(prices)
+
+
+def test_rank_by_hook_and_feasible_first():
+    opts = enumerate_options(cyclic_job(), rank_by="weight_kg")
+    assert [o.weight_kg for o in opts] == sorted(o.weight_kg for o in opts)
+    by_kwh = enumerate_options(cyclic_job(), rank_by=lambda o: o.price / o.usable_kwh)
+    keys = [o.price / o.usable_kwh for o in by_kwh]
+    assert keys == sorted(keys)
+    with pytest.raises(ModelError, match="cannot rank options by 'colour'"):
+        enumerate_options(cyclic_job(), rank_by="colour")
+    small = enumerate_options(cyclic_job(), max_parallel=2)
+    feas = [o.feasible for o in small]
+    assert feas == sorted(feas, reverse=True) and True in feas and False in feas
+    assert rank_options(list(reversed(small))) == small
+
+
+def test_flags_parallel_unreachable_and_end_voltage():
+    opts = {o.model: o for o in enumerate_options(cyclic_job(end_voltage_per_cell_v=1.80), max_parallel=4)}
+    agm = opts["IL-12A-100"]
+    assert agm.parallel == 4 and not agm.feasible
+    assert FLAG_PARALLEL in agm.flags  # common practice: at most 3 strings in parallel (REFERENCES.md [practice])
+    assert any(f.startswith("requirement not reached: 4 strings") for f in agm.flags)
+    assert any("end voltage 1.80 V/cell differs" in f for f in agm.flags)
+    cell = opts["IL-2F-1000"]
+    assert cell.parallel == 1 and cell.feasible and FLAG_PARALLEL not in cell.flags
+    assert not any(f.startswith("requirement not reached") for f in cell.flags)
+
+
+def test_flag_voltage_window():
+    # 24 cells × 2.45 V absorption (the 6 V block) = 58.8 V > 58 V; 24 × 2.40 = 57.6 V fits.
+    # 24 × 1.75 V end = 42 V ≥ 40 V.
+    opts = {o.model: o for o in enumerate_options(cyclic_job(window_min_v=40.0, window_max_v=58.0))}
+    assert not opts["IL-6F-225"].feasible
+    assert any("absorption voltage 58.8 V above the window maximum 58 V" in f for f in opts["IL-6F-225"].flags)
+    assert opts["IL-12A-100"].feasible
+    opts = {o.model: o for o in enumerate_options(cyclic_job(window_min_v=43.0))}
+    assert all(any("end voltage 42.0 V below the window minimum 43 V" in f for f in o.flags) for o in opts.values())
+    assert not any(o.feasible for o in opts.values())
+
+
+def test_flag_temperature_outside_the_table():
+    # IEEE 485 Table 1 runs 25–125 °F (−3.9 to 51.7 °C), end value 1.520 (from memory)
+    o = enumerate_options(cyclic_job(min_temp_c=-10.0))[0]
+    assert o.temp_factor == pytest.approx(1.52)
+    assert any("outside the IEEE 485 table" in f for f in o.flags)
+    assert not any("IEEE 485 table" in f for f in enumerate_options(cyclic_job(min_temp_c=0.0))[0].flags)
+    # warm: no factor below 1 (common practice, no source) unless asked for the table as is (0.96 at 85 °F)
+    assert enumerate_options(cyclic_job(min_temp_c=29.444))[0].temp_factor == pytest.approx(1.0)
+    warm = enumerate_options(cyclic_job(min_temp_c=29.444), floor_temp_factor_at_one=False)[0]
+    assert warm.temp_factor == pytest.approx(0.96, abs=1e-4)
+
+
+def test_standby_options_follow_the_section_method():
+    # One period of 240 A for 60 min at 25 °C on the 420 Ah cell: K_60 = C8/I_60 = 395/240,
+    # F = 240 × 395/240 = 395 Ah = exactly one string of C8 = 395 Ah (IEEE 485 definition, from memory).
+    opts = {o.model: o for o in enumerate_options(standby_job())}
+    cell = opts["IL-2F-420"]
+    assert cell.required_ah == pytest.approx(395.0) and cell.parallel == 1 and cell.series == 24
+    assert cell.capacity_ah == pytest.approx(395.0) and cell.parallel_gain == 1.0
+    assert cell.duty_cycle.controlling_section == 1
+    assert not any("rate table" in f for f in cell.flags)
+    # Twice the current needs two strings; the 12 V blocks need ceil(F / C8) strings of their own K_t.
+    opts = {o.model: o for o in enumerate_options(standby_job(duty_cycle=(DutyPeriod(480.0, 60.0),)))}
+    assert opts["IL-2F-420"].parallel == 2 and opts["IL-2F-420"].string_current_a == pytest.approx(240.0)
+    blk = opts["IL-12A-100"]
+    f = duty_cycle_size([(480.0, 60.0)], kt_from_spec(blk.spec)).required_ah
+    assert blk.required_ah == pytest.approx(f)
+    assert blk.parallel == min(math.ceil(f / blk.spec.capacity_ah(8.0)), 8)
+    # a 1-minute load needs K_t below the 12 V table's shortest (1 h) rating: flagged
+    opts = {o.model: o for o in enumerate_options(standby_job(duty_cycle=(DutyPeriod(300.0, 1.0),
+                                                                          DutyPeriod(50.0, 120.0))))}
+    assert any("duty-cycle rate outside the rate table" in f for f in opts["IL-12A-100"].flags)
+    assert not any("duty-cycle rate outside" in f for f in opts["IL-2F-420"].flags)
+
+
+def test_unusable_catalog_and_bad_jobs():
+    # 18 V is 9 cells of 2 V or 3 blocks of 6 V, but not a whole number of 12 V blocks (arithmetic)
+    rej = {r.model: r.reason for r in rejected_batteries(cyclic_job(system_voltage_v=18))}
+    assert set(rej) == {"IL-12F-110", "IL-12A-100", "IL-12G-90"}
+    assert rej["IL-12G-90"] == "18 V is not a whole number of 12 V blocks"
+    opts = enumerate_options(cyclic_job(system_voltage_v=18))
+    assert {o.model: o.series for o in opts} == {"IL-2F-420": 9, "IL-2F-1000": 9, "IL-6F-225": 3}
+    blocks = [s for s in DEFAULT_CATALOG if s.block_voltage_v == 12]
+    with pytest.raises(ModelError, match="No battery in the catalog can make a bank for this job"):
+        enumerate_options(cyclic_job(system_voltage_v=18), blocks)
+    with pytest.raises(SpecError) as ei:
+        enumerate_options(cyclic_job(max_dod=0, design_margin=0.5, loads=(), window_min_v=60, window_max_v=50))
+    assert {p.field for p in ei.value.problems} == {"max_dod", "design_margin", "loads", "window_max_v"}
+    with pytest.raises(SpecError, match="duty_cycle"):
+        enumerate_options(standby_job(duty_cycle=()))
+
+
+# ---- properties -----------------------------------------------------------------
+kibam_params = st.tuples(st.floats(0.1, 0.9), st.floats(0.05, 5.0), st.floats(20.0, 3000.0))
+
+
+@settings(max_examples=40, deadline=None)
+@given(params=st.lists(kibam_params, min_size=1, max_size=4), current=st.floats(0.05, 300.0),
+       ceiling_frac=st.floats(0.8, 1.0), pmax=st.integers(1, 10))
+def test_more_strings_never_deliver_less(params, current, ceiling_frac, pmax):
+    # Invariant (DESIGN.md): more parallel strings never deliver less energy.
+    kb = Kibam.stack([Kibam(*p) for p in params])
+    ceiling = np.array([p[2] * ceiling_frac for p in params])
+    grid = candidate_grid(len(params), pmax)
+    sc = score_autonomy(kb, ceiling, np.full(len(params), 100.0), np.ones(len(params)), grid,
+                        bank_current_a=current, required_ah=1.0)
+    bank = sc.bank_capacity_ah.reshape(len(params), pmax)
+    assert np.all(np.diff(bank, axis=1) >= -1e-9 * bank[:, 1:])
+    gain = sc.parallel_gain.reshape(len(params), pmax)
+    assert np.all(gain[:, 0] == 1.0) and np.all(np.diff(gain, axis=1) >= -1e-12)
+    # each candidate equals the scalar per-candidate computation
+    for i in range(len(grid.parallel)):
+        b, p = int(grid.battery_index[i]), int(grid.parallel[i])
+        cap, rt = string_capacity_ah(Kibam(*params[b]), current / p, ceiling[b])
+        assert sc.string_capacity_ah[i] == pytest.approx(cap, rel=1e-12)
+        assert sc.design_hours[i] == pytest.approx(rt, rel=1e-12)
+
+
+@settings(max_examples=15, deadline=None)
+@given(wh=st.floats(200.0, 20000.0), days=st.floats(0.5, 5.0), dod=st.floats(0.2, 1.0),
+       volts=st.sampled_from([12, 24, 48]), pmax=st.integers(1, 6), temp=st.floats(-3.0, 40.0))
+def test_vectorised_options_equal_scalar_sizing(wh, days, dod, volts, pmax, temp):
+    job = cyclic_job(loads=(Load("load", wh, 1.0),), autonomy_days=days, max_dod=dod, system_voltage_v=volts,
+                     min_temp_c=temp, max_parallel=pmax)
+    for o in enumerate_options(job):
+        r = autonomy_size(o.spec, autonomy_days=days, system_voltage_v=volts, max_dod=dod, daily_wh=wh,
+                          efficiency=0.9, temp_factor=o.temp_factor, design_margin=1.1, aging_factor=1.25,
+                          max_parallel=pmax)
+        assert (o.parallel, o.series) == (r.parallel, r.series)
+        assert (not any(f.startswith("requirement not reached") for f in o.flags)) == r.reached
+        assert o.capacity_ah == pytest.approx(r.chosen.bank_capacity_ah, rel=1e-12)
+        assert o.design_hours == pytest.approx(r.chosen.runtime_h, rel=1e-12)
+
+
+def test_first_enough_picks_the_smallest_p():
+    grid = candidate_grid(3, 4)
+    enough = np.array([0, 1, 1, 1, 0, 0, 0, 0, 1, 1, 1, 1], dtype=bool)
+    idx, reached = first_enough(grid, enough)
+    assert list(grid.parallel[idx]) == [2, 4, 1] and list(reached) == [True, False, True]

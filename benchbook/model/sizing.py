@@ -566,7 +566,7 @@ def autonomy_size(spec: BatterySpec, *, autonomy_days: float, system_voltage_v: 
     _check_factor("daily_wh" if daily_wh is not None else "daily_ah", load, 0.0)
     series = series_count(spec, system_voltage_v)
     if series is None:
-        raise ModelError(f"{spec.model}: a {system_voltage_v:g} V system is not a whole number of "
+        raise ModelError(f"{spec.model}: {system_voltage_v:g} V is not a whole number of "
                          f"{spec.block_voltage_v:g} V blocks")
     kb = kibam if kibam is not None else kibam_for(spec)
     load_wh = float(daily_wh) if daily_wh is not None else float(daily_ah) * system_voltage_v
