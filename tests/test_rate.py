@@ -16,14 +16,14 @@ from benchbook.errors import ModelError, SpecError
 from benchbook.model.battery import ratings_at_least
 from benchbook.model.catalog import DEFAULT_CATALOG
 from benchbook.model.rate import (
-    BankAtLoad,
     Kibam,
-    bank_at_load,
     fit_kibam,
     fit_peukert,
     kibam_step,
     peukert_hours,
 )
+
+from benchbook.model.rate_bank import BankAtLoad, bank_at_load  # noqa: E402
 
 MM = Kibam(c=0.315, k_per_h=1.24, q_max_ah=100.0)  # M&M 1993 indicative lead-acid values
 
