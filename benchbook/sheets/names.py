@@ -550,11 +550,168 @@ QUOTE = Contract(
 )
 
 # =============================================================================================
+# Contracts: "capacity-test" and "readings" — the field data-entry sheets
+# (benchbook fieldsheet writes them; benchbook check reads them back)
+# =============================================================================================
+
+_YES_NO = ("yes", "no")
+#: Block columns of the TestLog table are headed ``Block S1-01``, ``Block S1-02``, … (string, then position);
+#: their cells hold block voltages [V]. The prefix is part of the contract.
+BLOCK_COLUMN_PREFIX = "Block "
+FIELD_METHODS = ("time-adjusted", "rate-adjusted")
+SG_CONVENTION_CHOICES = ("ieee", "manual-80f", "ref-20c")
+ELECTROLYTE_LEVELS = ("ok", "low", "high")
+
+
+def block_header(block_id: str) -> str:
+    """Header of a TestLog block column: ``"Block S1-01"``."""
+    return BLOCK_COLUMN_PREFIX + block_id
+
+
+_G_T_BANK, _G_T_SETUP, _G_T_START, _G_T_END = (
+    "Bank (filled by benchbook)", "Test set-up", "Conditions at the start", "End of test")
+
+CAPACITY_TEST_NAMES: tuple[NameSpec, ...] = (
+    _n("test_site", "Site", "", "text", "site", _G_T_BANK, required=True),
+    _n("test_bank_id", "Bank", "", "text", "bank_id", _G_T_BANK, required=True),
+    _n("test_battery_model", "Battery model", "", "text", "spec.model", _G_T_BANK, required=True),
+    _n("test_chemistry", "Chemistry", "", "choice", "spec.chemistry", _G_T_BANK, required=True, choices=CHEMISTRIES),
+    _n("test_cells_per_block", "Cells per block", "-", "integer", "spec.cells_per_block", _G_T_BANK,
+       required=True, low=1, high=6),
+    _n("test_series", "Blocks in series per string", "-", "integer", "series", _G_T_BANK, required=True,
+       low=1, high=500),
+    _n("test_parallel", "Strings in parallel", "-", "integer", "parallel", _G_T_BANK, required=True, low=1, high=50),
+    _n("test_design_life_years", "Design float life at 25 °C", "years", "number", "spec.float_life_years",
+       _G_T_BANK, low=0, low_open=True, high=40, help="For the remaining-life estimate; blank = not estimated."),
+    _n("test_avg_temp_c", "Mean battery temperature over the year", "°C", "number", "avg_temp_c", _G_T_BANK,
+       low=-40, high=60, default=25.0, help="Shortens the design life above 25 °C."),
+    _n("test_rated_minutes", "Rated time at the test current", "min", "number", "rated_minutes", _G_T_SETUP,
+       required=True, low=0, low_open=True, high=6000,
+       help="Time the rating gives to the end voltage at the test current, 25 °C."),
+    _n("test_current_a", "Test current, whole bank", "A", "number", "test_current_a", _G_T_SETUP,
+       low=0, low_open=True, high=1e5, help="Constant current of the discharge; blank only for a constant-power test."),
+    _n("test_power_w", "Test power (constant-power tests only)", "W", "number", "test_power_w", _G_T_SETUP,
+       low=0, low_open=True, high=1e8, help="Blank for a constant-current test."),
+    _n("test_rated_current_a", "Rated current for the rated time, 25 °C", "A", "number", "rated_current_a",
+       _G_T_SETUP, low=0, low_open=True, high=1e5, help="From the rating; the rate-adjusted method divides it by "
+                                                         "the temperature factor."),
+    _n("test_end_voltage_per_cell_v", "End voltage", "V/cell", "number", "end_voltage_per_cell_v", _G_T_SETUP,
+       required=True, low=1.6, high=1.95, typical="1.75"),
+    _n("test_method", "Correction method", "", "choice", "method", _G_T_SETUP, choices=FIELD_METHODS,
+       default="time-adjusted", help="IEEE 450: time-adjusted for tests of about 1 h or longer; rate-adjusted when "
+                                     "the current was set for the temperature."),
+    _n("test_date", "Test date", "", "text", "date", _G_T_START, required=True, help="A date."),
+    _n("test_crew", "Crew", "", "text", "crew", _G_T_START, required=True),
+    _n("test_start_temp_c", "Electrolyte temperature at the start, pilot cells average", "°C", "number",
+       "start_temp_c", _G_T_START, required=True, low=-10, high=60),
+    _n("test_ambient_temp_c", "Ambient temperature", "°C", "number", "ambient_temp_c", _G_T_START,
+       low=-30, high=60),
+    _n("test_charger_disconnected", "Charger disconnected", "", "choice", "charger_disconnected", _G_T_START,
+       required=True, choices=_YES_NO),
+    _n("test_last_full_charge", "Last fully charged", "", "text", "last_full_charge", _G_T_START,
+       help="Date and time; IEEE 450 asks for a full charge (and float) before the test."),
+    _n("test_previous_percent", "Capacity at the previous test", "%", "number", "baseline_percent", _G_T_START,
+       low=0, high=150, help="Blank when there was none, or give --baseline."),
+    _n("test_age_years", "Years in service", "years", "number", "age_years", _G_T_START, low=0, high=60),
+    _n("test_end_minute", "End of test, elapsed time", "min", "number", "end_minute", _G_T_END, required=True,
+       low=0, high=1e5, help="When the bank reached the end voltage (or the test was stopped)."),
+    _n("test_bypassed_blocks", "Blocks bypassed", "", "text", "bypassed", _G_T_END,
+       help="Block ids separated by commas, e.g. S1-03, S2-11; blank = none."),
+    _n("test_remarks", "Remarks", "", "text", "remarks", _G_T_END),
+)
+
+CAPACITY_TEST_TABLES: tuple[TableSpec, ...] = (
+    TableSpec("TestLog", (
+        _h("Elapsed [min]", "elapsed_min", low=0, high=1e5),
+        _h("Bank voltage [V]", "bank_voltage_v", required=False, low=0, low_open=True, high=3000),
+        _h("Current [A]", "current_a", required=False, low=0, high=1e5),
+        _h("Pilot temperature [°C]", "pilot_temp_c", required=False, low=-10, high=70),
+    ), sheet="Log", help="One row per reading, in time order; between Current and Pilot temperature one column "
+                         "per block headed Block S<string>-<position> holding its voltage [V]."),
+    TableSpec("RatedCapacity", (
+        _h("Duration [h]", "hours", low=0, low_open=True, high=1000),
+        _h("Capacity [Ah]", "ah", low=0, low_open=True, high=1e6),
+    ), required=False, sheet="Battery", help="The battery's rating, one string, to the end voltage at 25 °C; "
+                                              "lets benchbook compare the test with the model."),
+)
+
+CAPACITY_TEST = Contract(
+    kind="capacity-test",
+    title="Capacity test sheet",
+    template="",
+    names=CAPACITY_TEST_NAMES,
+    tables=CAPACITY_TEST_TABLES,
+    help="Written per bank by benchbook fieldsheet --kind capacity-test and read back by benchbook check: "
+         "the bank, the test set-up, the conditions, the log of a constant-current discharge and its end.",
+)
+
+_G_R_BANK, _G_R_COND = ("Bank (filled by benchbook)", "Conditions")
+
+READINGS_NAMES: tuple[NameSpec, ...] = (
+    _n("readings_site", "Site", "", "text", "site", _G_R_BANK, required=True),
+    _n("readings_bank_id", "Bank", "", "text", "bank_id", _G_R_BANK, required=True),
+    _n("readings_battery_model", "Battery model", "", "text", "spec.model", _G_R_BANK, required=True),
+    _n("readings_chemistry", "Chemistry", "", "choice", "spec.chemistry", _G_R_BANK, required=True,
+       choices=CHEMISTRIES),
+    _n("readings_cells_per_block", "Cells per block", "-", "integer", "spec.cells_per_block", _G_R_BANK,
+       required=True, low=1, high=6),
+    _n("readings_series", "Blocks in series per string", "-", "integer", "series", _G_R_BANK, required=True,
+       low=1, high=500),
+    _n("readings_parallel", "Strings in parallel", "-", "integer", "parallel", _G_R_BANK, required=True,
+       low=1, high=50),
+    _n("readings_float_setting_v_per_cell", "Float setting from the datasheet", "V/cell", "number",
+       "spec.float_voltage_per_cell_v", _G_R_BANK, low=2.0, high=2.5),
+    _n("readings_date", "Date of readings", "", "text", "date", _G_R_COND, required=True, help="A date."),
+    _n("readings_crew", "Crew", "", "text", "crew", _G_R_COND, required=True),
+    _n("readings_on_float", "Bank on float while read", "", "choice", "on_float", _G_R_COND, required=True,
+       choices=_YES_NO),
+    _n("readings_water_added", "Water added before the SG readings", "", "choice", "water_added", _G_R_COND,
+       choices=_YES_NO, help="Flooded cells only."),
+    _n("readings_ambient_temp_c", "Ambient temperature", "°C", "number", "ambient_temp_c", _G_R_COND,
+       low=-30, high=60),
+    _n("readings_bank_voltage_v", "Bank voltage at the terminals", "V", "number", "bank_voltage_v", _G_R_COND,
+       low=0, low_open=True, high=3000),
+    _n("readings_sg_convention", "SG temperature correction", "", "choice", "sg_convention", _G_R_COND,
+       choices=SG_CONVENTION_CHOICES, default="ieee",
+       help="ieee: +0.001 per 3 °F from 77 °F; manual-80f: +0.004 per 10 °F from 80 °F; ref-20c: +0.0007 per °C "
+            "from 20 °C."),
+    _n("readings_ohmic_instrument", "Ohmic instrument (make, model)", "", "text", "ohmic_instrument", _G_R_COND),
+    _n("readings_remarks", "Remarks", "", "text", "remarks", _G_R_COND),
+)
+
+READINGS_TABLES: tuple[TableSpec, ...] = (
+    TableSpec("BlockReadings", (
+        _h("Block", "block_id", "text", help="S<string>-<position>, filled by benchbook."),
+        _h("Float voltage [V]", "float_voltage_v", low=0, low_open=True, high=20),
+        _h("Specific gravity [-]", "specific_gravity", required=False, low=1.0, high=1.4,
+           help="Flooded cells only, hydrometer reading before correction."),
+        _h("Electrolyte level", "electrolyte_level", "choice", required=False, choices=ELECTROLYTE_LEVELS),
+        _h("Temperature [°C]", "temp_c", required=False, low=-10, high=80),
+        _h("Internal resistance [mΩ]", "ohmic_value", required=False, low=0, low_open=True, high=1000,
+           help="Fill this or Conductance, as the instrument reads."),
+        _h("Conductance [S]", "ohmic_value", required=False, low=0, low_open=True, high=1e5),
+        _h("Connection [µΩ]", "connection_uohm", required=False, low=0, low_open=True, high=1e6,
+           help="Inter-block connection after this block."),
+        _h("Remarks", "remarks", "text", required=False),
+    ), sheet="Readings", help="One row per block, as benchbook numbered them."),
+)
+
+READINGS = Contract(
+    kind="readings",
+    title="Routine readings sheet",
+    template="",
+    names=READINGS_NAMES,
+    tables=READINGS_TABLES,
+    help="Written per bank by benchbook fieldsheet --kind readings and read back by benchbook check: float "
+         "voltage, specific gravity, temperature, ohmic value and connection resistance of every block.",
+)
+
+# =============================================================================================
 # (Further contracts — "quote", "capacity-test", "readings" — go in their own sections here.)
 # =============================================================================================
 
 #: Every contract, by kind of workbook.
-CONTRACTS: dict[str, Contract] = {c.kind: c for c in (INTAKE, QUOTE)}
+CONTRACTS: dict[str, Contract] = {c.kind: c for c in (INTAKE, QUOTE, CAPACITY_TEST, READINGS)}
 
 
 def contract(kind: str) -> Contract:
