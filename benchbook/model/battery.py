@@ -126,13 +126,18 @@ class BatterySpec:
         return self.capacity_ah(10.0)
 
     @property
-    def nominal_ah(self) -> float:
-        """Nominal capacity: C10 for 2 V cells, C20 for monobloc batteries. [Ah]
+    def nominal_hours(self) -> float:
+        """Duration of the nominal rating: 10 h for 2 V cells, 20 h for monobloc batteries. [h]
 
         Common practice, no source: stationary cells are sold on C10, cyclic
         and monobloc batteries on C20.
         """
-        return self.capacity_ah(10.0 if self.block_voltage_v <= 2 else 20.0)
+        return 10.0 if self.block_voltage_v <= 2 else 20.0
+
+    @property
+    def nominal_ah(self) -> float:
+        """Nominal capacity, at :attr:`nominal_hours`. [Ah]"""
+        return self.capacity_ah(self.nominal_hours)
 
     @property
     def nominal_kwh(self) -> float:

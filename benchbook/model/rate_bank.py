@@ -152,7 +152,7 @@ def bank_at_load(spec, series: int, parallel: int, *, load_w: float | None = Non
     t_k = float(kibam.runtime_h(i_str))
     t_k_single = float(kibam.runtime_h(i_bank))
     ah_k = parallel * i_str * t_k
-    rated_h = 10.0 if spec.block_voltage_v <= 2 else 20.0
+    rated_h = spec.nominal_hours
     rated_ah = float(spec.capacity_ah(rated_h))
     t_p = float(peukert_hours(i_str, rated_ah, rated_h, k_p))
     t_p_single = float(peukert_hours(i_bank, rated_ah, rated_h, k_p))
