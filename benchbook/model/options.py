@@ -156,7 +156,15 @@ class CandidateGrid:
 
 
 def candidate_grid(n_batteries: int, max_parallel: int) -> CandidateGrid:
-    """The full battery-major grid of candidates (see :class:`CandidateGrid`)."""
+    """The full battery-major grid of candidates (see :class:`CandidateGrid`).
+
+    Parameters
+    ----------
+    n_batteries : int
+        Batteries, ≥ 1. [-]
+    max_parallel : int
+        Largest number of parallel strings, ≥ 1. [-]
+    """
     if n_batteries < 1 or max_parallel < 1:
         raise ModelError(f"a candidate grid needs batteries and strings; found {n_batteries} × {max_parallel}")
     b = np.repeat(np.arange(n_batteries), max_parallel)
@@ -253,6 +261,13 @@ def score_standby(reference_ah: np.ndarray, required_ah: np.ndarray, peak_curren
 
 def first_enough(grid: CandidateGrid, enough: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Per battery, the candidate with the smallest P that is enough (else the largest P).
+
+    Parameters
+    ----------
+    grid : CandidateGrid
+        The candidates.
+    enough : ndarray of bool
+        Per candidate: meets the requirement.
 
     Returns
     -------
