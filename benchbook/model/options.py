@@ -28,12 +28,12 @@ from typing import Callable, Mapping, Optional, Sequence, Union
 import numpy as np
 
 from benchbook.errors import FieldProblem, ModelError, SpecError
-from benchbook.model.battery import BatterySpec, ratings_at_least
+from benchbook.model.battery import BatterySpec
 from benchbook.model.catalog import DEFAULT_CATALOG
 from benchbook.model.job import APPLICATIONS, Job
 from benchbook.model.rate import Kibam
-from benchbook.model.sizing import (MEET_RTOL, DutyCycleResult, duty_cycle_size, kibam_for, kt_from_spec,
-                                    series_count)
+from benchbook.model.sizing import (MEET_RTOL, DutyCycleResult, duty_cycle_size, kibam_fit_rows, kibam_for,
+                                    kt_from_spec, series_count)
 from benchbook.model.temperature import ieee485_factor_checked
 
 #: Largest number of parallel strings before a flag (common practice, no source:
@@ -345,7 +345,7 @@ def _screen(job: Job, catalog: Sequence[BatterySpec], kibams: Optional[Mapping[s
                 try:
                     kb = kibam_for(s)
                 except SpecError:
-                    rejected.append(Rejection(s.model, "fewer than three ratings of 1 h or longer to fit the "
+                    rejected.append(Rejection(s.model, "fewer than three ratings in the rate table to fit the "
                                                        "KiBaM rate model"))
                     continue
         usable.append((s, n, kb))
@@ -356,8 +356,8 @@ def rejected_batteries(job: Job, catalog: Sequence[BatterySpec] = DEFAULT_CATALO
     """Catalog batteries that cannot make a bank for the job, each with the reason.
 
     A battery is rejected when the system voltage is not a whole number of its
-    blocks, or (cyclic jobs) when its rate table has too few ratings of 1 h and
-    longer to fit the KiBaM rate model.
+    blocks, or (cyclic jobs) when its rate table has fewer than three ratings,
+    too few to fit the KiBaM rate model.
     """
     return tuple(_screen(job, catalog, None)[1])
 
@@ -488,7 +488,7 @@ def enumerate_options(job: Job, catalog: Sequence[BatterySpec] = DEFAULT_CATALOG
         current = job.daily_dc_wh / job.system_voltage_v / 24.0
         required = job.daily_dc_wh / job.system_voltage_v * job.autonomy_days / job.max_dod * tf \
             * job.design_margin * job.aging_factor
-        fit_min = np.array([ratings_at_least(s, 1.0)[0][0] for s in specs])
+        fit_min = np.array([kibam_fit_rows(s)[0][0] for s in specs])
         scores = score_autonomy(kb, np.array([s.rate_table[-1][1] for s in specs]),
                                 np.array([s.rate_table[-1][0] for s in specs]), fit_min, grid,
                                 bank_current_a=current, required_ah=required)
@@ -532,7 +532,7 @@ def enumerate_options(job: Job, catalog: Sequence[BatterySpec] = DEFAULT_CATALOG
                          f"of the {required_b[i]:.0f} Ah needed")
         cap = float(scores.bank_capacity_ah[j])
         blocks = n * p
-        basis = "C10" if s.block_voltage_v <= 2 else "C20"
+        basis = f"C{s.nominal_hours:g}"
         options.append(BankOption(
             model=s.model, spec=s, application=job.application, series=n, parallel=p, blocks=blocks,
             cells=cells, nominal_kwh=blocks * s.nominal_kwh, capacity_ah=cap,

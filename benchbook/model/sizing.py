@@ -27,7 +27,7 @@ from typing import Callable, Optional, Sequence
 import numpy as np
 
 from benchbook.errors import ModelError
-from benchbook.model.battery import BatterySpec, ratings_at_least
+from benchbook.model.battery import BatterySpec
 from benchbook.model.rate import Kibam, fit_kibam
 
 #: Relative tolerance when comparing installed with required capacity, so a
@@ -309,16 +309,27 @@ def kt_from_spec(spec: BatterySpec, reference_hours: float = 8.0) -> Callable[[f
 # ====================================================================================
 # Autonomy sizing (cyclic and stand-alone banks)
 # ====================================================================================
+def kibam_fit_rows(spec: BatterySpec, min_hours: float = 1.0) -> list[tuple[float, float]]:
+    """Ratings the KiBaM fit uses: those of ``min_hours`` and longer, or all when fewer than three remain."""
+    rows = [r for r in spec.rate_table if r[0] >= min_hours]
+    return rows if len(rows) >= 3 else list(spec.rate_table)
+
+
 @lru_cache(maxsize=512)
 def kibam_for(spec: BatterySpec) -> Kibam:
-    """KiBaM fitted to a battery's ratings of 1 h and longer (memoised per spec).
+    """KiBaM fitted to :func:`kibam_fit_rows` of a battery (memoised per spec).
+
+    Raises
+    ------
+    SpecError
+        The rate table has fewer than three ratings.
 
     References
     ----------
     Manwell & McGowan, Solar Energy 50(5):399-405, 1993.
     doi:10.1016/0038-092X(93)90060-2
     """
-    return fit_kibam(ratings_at_least(spec, 1.0))
+    return fit_kibam(kibam_fit_rows(spec))
 
 
 def series_count(spec: BatterySpec, system_voltage_v: float) -> Optional[int]:
@@ -528,7 +539,8 @@ def autonomy_size(spec: BatterySpec, *, autonomy_days: float, system_voltage_v: 
     max_parallel : int
         Largest number of strings to try, ≥ 1. [-]
     kibam : Kibam, optional
-        A KiBaM fit to use; fitted to the spec's ratings of 1 h and longer when omitted.
+        A KiBaM fit to use; fitted to the spec's ratings of 1 h and longer
+        (:func:`kibam_fit_rows`) when omitted.
 
     Returns
     -------

@@ -26,11 +26,10 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from benchbook.model.battery import ratings_at_least  # noqa: E402
 from benchbook.model.catalog import DEFAULT_CATALOG  # noqa: E402
 from benchbook.model.options import candidate_grid, first_enough, score_autonomy  # noqa: E402
 from benchbook.model.rate import Kibam  # noqa: E402
-from benchbook.model.sizing import MEET_RTOL, kibam_for, string_capacity_ah  # noqa: E402
+from benchbook.model.sizing import MEET_RTOL, kibam_fit_rows, kibam_for, string_capacity_ah  # noqa: E402
 
 MAX_PARALLEL = 8
 
@@ -49,7 +48,7 @@ def tiled_catalog(n_batteries: int, seed: int = 485) -> dict[str, np.ndarray]:
         "q": np.array([fits[i].q_max_ah for i in pick]) * s,
         "ceiling": np.array([base[i].rate_table[-1][1] for i in pick]) * s,
         "longest": np.array([base[i].rate_table[-1][0] for i in pick]) * tau,
-        "shortest": np.array([ratings_at_least(base[i], 1.0)[0][0] for i in pick]) * tau,
+        "shortest": np.array([kibam_fit_rows(base[i])[0][0] for i in pick]) * tau,
     }
 
 
