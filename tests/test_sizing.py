@@ -194,6 +194,7 @@ def test_autonomy_uses_the_kibam_capacity_at_the_string_current():
 
 
 def test_capacity_is_capped_at_the_longest_rate():
+    # benchbook's rule (no source): never count more than the rate table's longest-rate capacity
     # KiBaM with q_max 130 Ah on a table that stops at 100 Ah / 100 h: very slow rates count 100 Ah.
     kb = Kibam(0.4, 0.8, 130.0)
     cap, rt = string_capacity_ah(kb, 0.05, 100.0)
@@ -203,6 +204,7 @@ def test_capacity_is_capped_at_the_longest_rate():
 
 
 def test_autonomy_rejects_bad_inputs():
+    # 30 V / 12 V = 2.5 blocks (arithmetic); DoD above 1 is meaningless (definition, no source)
     spec = flat_spec()
     with pytest.raises(ModelError, match="not a whole number of 12 V blocks"):
         autonomy_size(spec, autonomy_days=2, system_voltage_v=30, max_dod=0.5, daily_wh=1000, kibam=FLAT_KIBAM)
@@ -267,6 +269,7 @@ def test_cyclic_options_equal_the_scalar_autonomy_sizing():
 
 
 def test_rank_by_hook_and_feasible_first():
+    # ordering only: checked against Python's sorted() on the same keys (no domain source needed)
     opts = enumerate_options(cyclic_job(), rank_by="weight_kg")
     assert [o.weight_kg for o in opts] == sorted(o.weight_kg for o in opts)
     by_kwh = enumerate_options(cyclic_job(), rank_by=lambda o: o.price / o.usable_kwh)
@@ -407,6 +410,7 @@ def test_vectorised_options_equal_scalar_sizing(wh, days, dod, volts, pmax, temp
 
 
 def test_first_enough_picks_the_smallest_p():
+    # worked by hand: battery 0 first enough at P=2, battery 1 never (falls back to P=4), battery 2 at P=1
     grid = candidate_grid(3, 4)
     enough = np.array([0, 1, 1, 1, 0, 0, 0, 0, 1, 1, 1, 1], dtype=bool)
     idx, reached = first_enough(grid, enough)
