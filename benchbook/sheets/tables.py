@@ -184,13 +184,14 @@ def tables_from_openpyxl(wb) -> dict[str, TableInfo]:
     """Every table of a fully loaded openpyxl workbook, by name."""
     out: dict[str, TableInfo] = {}
     for ws in wb.worksheets:
-        for name, table in ws.tables.items():
+        for table in ws.tables.values():
+            name = table.displayName or table.name
             c1, r1, c2, r2 = range_boundaries(table.ref)
             cols = [tc.name for tc in (table.tableColumns or [])]
             if len(cols) != c2 - c1 + 1:
                 cols = [ws.cell(r1, c).value for c in range(c1, c2 + 1)]
             headers = tuple("" if h is None else str(h) for h in cols)
-            out[table.displayName or name] = TableInfo(table.displayName or name, ws.title, r1, r2, c1, c2, headers)
+            out[name] = TableInfo(name, ws.title, r1, r2, c1, c2, headers)
     return out
 
 
@@ -345,13 +346,23 @@ class Book:
         self.label = label
         self._wb = load_openpyxl(self.path, read_only=True)
         try:
-            self._cwb = python_calamine.CalamineWorkbook.from_path(str(self.path), load_tables=True)
-            self.tables = tables_from_calamine(self._cwb)
-        except Exception as exc:  # calamine raises its own kinds on broken parts
+            self._cwb = self._guard(python_calamine.CalamineWorkbook.from_path, str(self.path), load_tables=True)
+            self.tables = self._guard(tables_from_calamine, self._cwb)
+        except BaseException:
             self._wb.close()
-            raise FileFormatError(f"{self.path.name}: could not be read ({type(exc).__name__}: {exc}); "
-                                  "open it in a spreadsheet application and save it again as .xlsx")
+            raise
         self._grids: dict[str, list[list[Any]]] = {}
+
+    def _guard(self, fn, *args: Any, **kw: Any) -> Any:
+        """Call a python-calamine function; its failures (even a Rust panic) become FileFormatError."""
+        try:
+            return fn(*args, **kw)
+        except (KeyboardInterrupt, SystemExit, MemoryError):
+            raise
+        except BaseException as exc:  # calamine errors and pyo3's PanicException (a BaseException)
+            detail = str(exc).splitlines()[0][:200] if str(exc) else ""
+            raise FileFormatError(f"{self.path.name}: could not be read ({type(exc).__name__}: {detail}); "
+                                  "open it in a spreadsheet application and save it again as .xlsx") from None
 
     def __enter__(self) -> "Book":
         return self
@@ -373,7 +384,8 @@ class Book:
     def grid(self, sheet: str) -> list[list[Any]]:
         """All values of ``sheet`` from A1, as python-calamine gives them (``""`` for empty)."""
         if sheet not in self._grids:
-            self._grids[sheet] = self._cwb.get_sheet_by_name(sheet).to_python(skip_empty_area=False)
+            self._grids[sheet] = self._guard(lambda: self._cwb.get_sheet_by_name(sheet).to_python(
+                skip_empty_area=False))
         return self._grids[sheet]
 
     def value(self, ref: CellRef) -> Any:
@@ -384,7 +396,7 @@ class Book:
 
     def table_rows(self, info: TableInfo) -> list[list[Any]]:
         """Data rows of a table (header excluded), as lists of raw values."""
-        return self._cwb.get_table_by_name(info.name).to_python()
+        return self._guard(lambda: self._cwb.get_table_by_name(info.name).to_python())
 
     def below(self, info: TableInfo) -> list[tuple[CellRef, Any]]:
         """Non-blank cells in the row just under a table, within its columns."""
