@@ -89,3 +89,184 @@ class EvaluatedOption:
     soc_trace: Optional[np.ndarray] = field(default=None, repr=False, compare=False)
     voltage_trace: Optional[np.ndarray] = field(default=None, repr=False, compare=False)
     monthly: Optional[dict] = field(default=None, repr=False, compare=False)
+
+
+#: Hours the duty cycle's outage is repeated per year in the standby simulation (common practice,
+#: no source: a yearly or quarterly discharge test exercises a standby bank a few times a year).
+STANDBY_OUTAGES_PER_YEAR = 4
+
+
+def standby_profile(job, outages_per_year: int = STANDBY_OUTAGES_PER_YEAR):
+    """An hourly year for a standby bank: floated by its charger, with repeated duty-cycle outages.
+
+    Outside outages the charger carries the plant's continuous load (the duty
+    cycle's last period) and floats the bank. In each outage the charger is off
+    and the duty cycle is drawn from the bank, averaged over each hour (Ah
+    conserved; the section method, not this profile, sizes for the peaks).
+    Outages start at 10:00 on days spread evenly over the year.
+
+    Parameters
+    ----------
+    job : Job
+        A standby job with a duty cycle and a charger power. [W]
+    outages_per_year : int
+        Number of outages in the year. [-]
+
+    Returns
+    -------
+    Profile
+        8760 hourly steps.
+    """
+    from benchbook.errors import ModelError
+    from benchbook.model.profiles import HOURS_PER_YEAR, Profile, temperature_profile_c
+
+    if not job.duty_cycle:
+        raise ModelError("a standby job needs a duty cycle")
+    v = float(job.system_voltage_v)
+    minutes = np.array([p.minutes for p in job.duty_cycle], dtype=float)
+    amps = np.array([p.current_a for p in job.duty_cycle], dtype=float)
+    ends = np.cumsum(minutes)
+    hours = int(np.ceil(ends[-1] / 60.0))
+    # Ah drawn in each clock hour of the outage, from the piecewise-constant duty cycle
+    per_hour = np.zeros(hours)
+    starts = ends - minutes
+    for h in range(hours):
+        lo, hi = 60.0 * h, 60.0 * (h + 1)
+        overlap = np.clip(np.minimum(ends, hi) - np.maximum(starts, lo), 0.0, None)
+        per_hour[h] = float(np.sum(overlap * amps)) / 60.0
+    base_w = float(amps[-1]) * v
+    charger = float(job.charger_power_w) if job.charger_power_w else 2.0 * base_w
+    load = np.full(HOURS_PER_YEAR, base_w)
+    charge = np.full(HOURS_PER_YEAR, max(charger, base_w))
+    for k in range(int(outages_per_year)):
+        day = int((k + 0.5) * 365 / outages_per_year)
+        t0 = day * 24 + 10
+        load[t0:t0 + hours] = per_hour * v
+        charge[t0:t0 + hours] = 0.0
+    temp = temperature_profile_c(job.monthly_temp_c, job.avg_temp_c)
+    return Profile(load, charge, temp, 1.0, source=f"standby: {outages_per_year} duty-cycle outages")
+
+
+def round_trip_efficiency(energy_in_kwh, energy_out_kwh, delta_stored_kwh):
+    """Round-trip energy efficiency over a period: ``E_out / (E_in − ΔW)``. [-]
+
+    The change in stored energy ``ΔW`` is taken off the energy put in, so a
+    year that ends less full than it began is not credited with energy it did
+    not return (common practice, no source).
+    """
+    e_in = np.asarray(energy_in_kwh, dtype=float) - np.asarray(delta_stored_kwh, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(e_in > 0, np.asarray(energy_out_kwh, dtype=float) / e_in, np.nan)
+
+
+def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
+                     keep_traces: bool = True) -> list[EvaluatedOption]:
+    """Size, simulate, age and cost every bank option of a job, then rank them.
+
+    Parameters
+    ----------
+    job : Job
+        The job.
+    catalog : sequence of BatterySpec, optional
+        Batteries to consider; the embedded catalog when None.
+    rank_by : str
+        ``"cost"`` (cost per delivered kWh for cyclic jobs, cost of readiness
+        per year for standby jobs), ``"unserved"``, ``"price"`` or ``"weight"``.
+        Options that do not meet the requirement always rank last.
+    options : sequence of BankOption, optional
+        Options already sized; enumerated from the catalog when None.
+    keep_traces : bool
+        Keep hourly state-of-charge and voltage traces on the results.
+
+    Returns
+    -------
+    list of EvaluatedOption
+        Ranked, ``rank`` 1 first.
+
+    References
+    ----------
+    Simulation: Manwell & McGowan (1993), Copetti et al. (1993); life: ASTM
+    E1049-85 rainflow and Miner's rule; cost: Schmidt et al., Joule 3:81–100
+    (2019). See the modules ``simulate``, ``life`` and ``cost``.
+    """
+    from benchbook.errors import ModelError
+    from benchbook.model.catalog import DEFAULT_CATALOG
+    from benchbook.model.cost import bank_capex, cost_of_readiness, lcos, replacement_cost
+    from benchbook.model.life import service_life
+    from benchbook.model.options import enumerate_options
+    from benchbook.model.profiles import job_profile
+    from benchbook.model.safety import gas_current_ma_per_ah
+    from benchbook.model.simulate import simulate
+
+    if rank_by not in RANK_KEYS:
+        raise ModelError(f"rank by {rank_by!r}: expected one of {', '.join(RANK_KEYS)}")
+    catalog = tuple(catalog) if catalog else DEFAULT_CATALOG
+    opts = list(options) if options is not None else enumerate_options(job, catalog)
+    if not opts:
+        raise ModelError("no bank option to evaluate")
+    profile = standby_profile(job) if job.application == "standby" else job_profile(job)
+    sim = simulate(opts, profile, job.end_voltage_per_cell_v, generator=job.generator,
+                   keep_traces=keep_traces)
+    eco = job.economics
+    rte = round_trip_efficiency(sim.energy_in_kwh, sim.energy_out_kwh, sim.delta_stored_kwh)
+    out = []
+    for i, o in enumerate(opts):
+        spec = o.spec
+        soc = sim.soc_trace[:, i] if sim.soc_trace is not None else sim.soc_extremes(i)
+        life = service_life(soc, cycle_life=spec.cycle_life, design_life_25c_years=spec.float_life_years,
+                            avg_temp_c=job.avg_temp_c)
+        repl_years = tuple(life.replacements(eco.horizon_years))
+        capex = bank_capex(o.blocks, spec.unit_price, eco.install_cost)
+        repl_cost = replacement_cost(o.blocks, spec.unit_price, eco.replacement_labour_per_block)
+        eta = float(rte[i]) if np.isfinite(rte[i]) else 0.8
+        delivered = float(sim.energy_out_kwh[i])
+        cost = lcos(capex=capex, om_per_year=eco.om_per_year, discount_rate=eco.discount_rate,
+                    years=eco.horizon_years, delivered_kwh_per_year=max(delivered, 1e-9),
+                    charge_price_per_kwh=eco.energy_price_per_kwh, round_trip_efficiency=min(max(eta, 1e-6), 1.0),
+                    replacements=[(y, repl_cost) for y in repl_years], fuel_per_year=float(sim.fuel_cost[i]))
+        readiness = None
+        if job.application == "standby":
+            float_a = gas_current_ma_per_ah(spec.chemistry, "float") * 1e-3 * spec.c10_ah * o.parallel
+            readiness = cost_of_readiness(
+                capex=capex, om_per_year=eco.om_per_year, discount_rate=eco.discount_rate,
+                years=eco.horizon_years, float_current_a=float_a,
+                float_voltage_v=o.cells * spec.float_voltage_per_cell_v,
+                energy_price_per_kwh=eco.energy_price_per_kwh,
+                replacements=[(y, repl_cost) for y in repl_years]).per_year
+        out.append(EvaluatedOption(
+            rank=0, option=o, round_trip_efficiency=float(rte[i]),
+            energy_in_kwh=float(sim.energy_in_kwh[i]), energy_out_kwh=delivered,
+            unserved_kwh=float(sim.unserved_kwh[i]), unserved_hours=float(sim.unserved_hours[i]),
+            curtailed_kwh=float(sim.curtailed_kwh[i]), generator_hours=float(sim.generator_hours[i]),
+            generator_kwh=float(sim.generator_kwh[i]), min_soc=float(sim.min_soc[i]),
+            mean_soc=float(sim.mean_soc[i]), days_below_50=float(sim.days_below_50[i]),
+            service_life_years=float(life.years), life_limited_by=life.limited_by,
+            cycle_life_years=float(life.cycle_life_years), float_life_years=float(life.float_life_years),
+            replacements=repl_years, capex=float(capex), lcos=cost, cost_per_kwh=float(cost.per_kwh),
+            cost_of_readiness_per_year=None if readiness is None else float(readiness),
+            soc_trace=None if sim.soc_trace is None else sim.soc_trace[:, i].copy(),
+            voltage_trace=None if sim.voltage_trace is None else sim.voltage_trace[:, i].copy(),
+            monthly={k: np.asarray(v)[:, i].copy() for k, v in sim.monthly.items()}))
+    return rank_evaluated(out, rank_by, job.application)
+
+
+RANK_KEYS = ("cost", "unserved", "price", "weight")
+
+
+def rank_evaluated(evaluated, rank_by: str = "cost", application: str = "cyclic") -> list[EvaluatedOption]:
+    """Rank evaluated options; options that do not meet the requirement come last."""
+    from dataclasses import replace
+
+    def key(e: EvaluatedOption):
+        if rank_by == "cost":
+            v = e.cost_of_readiness_per_year if application == "standby" else e.cost_per_kwh
+        elif rank_by == "unserved":
+            v = e.unserved_kwh
+        elif rank_by == "price":
+            v = e.option.price
+        else:
+            v = e.option.weight_kg
+        return (not e.option.feasible, v, e.option.price)
+
+    ranked = sorted(evaluated, key=key)
+    return [replace(e, rank=i + 1) for i, e in enumerate(ranked)]

@@ -1,0 +1,82 @@
+"""The real entry point: --version, --help for every subcommand, and the error contract."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+import pytest
+
+from benchbook import __version__
+from benchbook.cli import build_parser, main
+
+
+def run(*args: str, cwd=None) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "benchbook", *args], capture_output=True, text=True,
+                          cwd=cwd, timeout=300)
+
+
+def subcommands() -> list[str]:
+    parser = build_parser()
+    action = next(a for a in parser._actions if a.dest == "command")
+    return sorted(action.choices)
+
+
+def test_version():
+    r = run("--version")
+    assert r.returncode == 0
+    assert r.stdout.strip() == f"benchbook {__version__}"
+
+
+def test_help_lists_every_subcommand():
+    r = run("--help")
+    assert r.returncode == 0
+    for name in subcommands():
+        assert name in r.stdout
+
+
+@pytest.mark.parametrize("name", subcommands())
+def test_every_subcommand_has_help(name):
+    r = run(name, "--help")
+    assert r.returncode == 0, r.stderr
+    assert r.stdout.startswith("usage: benchbook " + name)
+
+
+def test_no_command_prints_help_and_fails():
+    r = run()
+    assert r.returncode == 2
+    assert "usage: benchbook" in r.stdout
+
+
+def test_missing_input_is_a_clear_error(tmp_path):
+    r = run("size", str(tmp_path / "nope.xlsx"))
+    assert r.returncode == 2
+    assert r.stderr.startswith("Error: ")
+    assert "nope.xlsx" in r.stderr and "no such file" in r.stderr
+    assert "Traceback" not in r.stderr
+
+
+def test_not_a_workbook_is_a_clear_error(tmp_path):
+    p = tmp_path / "loads.xlsx"
+    p.write_text("Load,Power [W]\nfridge,80\n")
+    r = run("size", str(p))
+    assert r.returncode == 2
+    assert "text file" in r.stderr and "save it as .xlsx" in r.stderr
+    assert "Traceback" not in r.stderr
+
+
+def test_internal_error_exits_1_without_traceback(monkeypatch, capsys):
+    import benchbook.cli as cli
+
+    def boom(args):
+        raise ZeroDivisionError("division by zero")
+
+    parser = cli.build_parser()
+    monkeypatch.setattr(cli, "build_parser", lambda: parser)
+    for action in parser._actions:
+        if action.dest == "command":
+            action.choices["size"].set_defaults(handler=boom)
+    assert main(["size", "x.xlsx"]) == 1
+    err = capsys.readouterr().err
+    assert err.startswith("Error: internal error (ZeroDivisionError")
+    assert "Traceback" not in err
