@@ -1,0 +1,197 @@
+"""The comparison workbook: summary values and formulas, charts, hourly sheets, safe output."""
+
+from __future__ import annotations
+
+import re
+import zipfile
+from dataclasses import replace
+
+import numpy as np
+import openpyxl
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from benchbook.errors import FileFormatError, InputError
+from benchbook.model.cost import lcos
+from benchbook.model.evaluate import EvaluatedOption
+from benchbook.model.options import enumerate_options
+from benchbook.model.safety import bank_ventilation
+from benchbook.sheets.compare import (HOURS_PER_WEEK, metrics, parallel_curve, representative_weeks,
+                                      select_records, write_comparison)
+from test_quote import make_job
+
+MONTHLY_KEYS = ("load_kwh", "served_kwh", "energy_in_kwh", "energy_out_kwh", "unserved_kwh", "curtailed_kwh",
+                "generator_kwh")
+
+
+def full_record(option, rank: int, seed: int = 0, traces: bool = True) -> EvaluatedOption:
+    """A record around a real sized option: real LCOS terms, hand-made simulation figures (tests only)."""
+    rng = np.random.default_rng(seed)
+    h = np.arange(8760)
+    soc = np.clip(0.75 + 0.2 * np.sin(2 * np.pi * h / 24) - 0.15 * np.cos(2 * np.pi * h / 8760)
+                  + 0.02 * rng.standard_normal(8760), 0, 1)
+    cost = lcos(capex=option.price + 1500, om_per_year=150, discount_rate=0.06, years=20,
+                delivered_kwh_per_year=1234.5, charge_price_per_kwh=0.2, round_trip_efficiency=0.82,
+                end_of_life_cost=-200, replacements=((10, option.price),))
+    monthly = {k: np.linspace(80, 120, 12) * (1 + 0.1 * i) for i, k in enumerate(MONTHLY_KEYS)}
+    return EvaluatedOption(
+        rank=rank, option=option, round_trip_efficiency=0.80 + 0.01 * rank, energy_in_kwh=1500.0,
+        energy_out_kwh=1234.5, unserved_kwh=12.5 * rank, unserved_hours=20.0, curtailed_kwh=100.0,
+        generator_hours=0.0, generator_kwh=0.0, min_soc=float(soc.min()), mean_soc=float(soc.mean()),
+        days_below_50=3.0, service_life_years=9.5 + rank, life_limited_by="cycling", cycle_life_years=9.5,
+        float_life_years=10.0, replacements=(10,), capex=option.price + 1500, lcos=cost, cost_per_kwh=cost.per_kwh,
+        soc_trace=soc if traces else None, voltage_trace=48 + 4 * soc if traces else None, monthly=monthly)
+
+
+@pytest.fixture(scope="module")
+def records():
+    job = make_job()
+    return [full_record(o, i + 1, i) for i, o in enumerate(enumerate_options(job))]
+
+
+def _rows(ws):
+    """Label in column A → row number."""
+    return {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value}
+
+
+def test_summary_values_and_formulas(tmp_path, records):
+    job = make_job()
+    recs = records[:3]
+    out = write_comparison(job, recs, tmp_path / "c.xlsx", hourly=False)
+    wb = openpyxl.load_workbook(out)
+    assert wb.sheetnames == ["Summary", "Charts", "Chart data", "Notes"]
+    assert wb["Chart data"].sheet_state == "hidden"
+    ws = wb["Summary"]
+    rows = _rows(ws)
+    labels = {m.key: m.label for m in metrics("USD")}
+    for j, rec in enumerate(recs):
+        col = 2 + j
+        o = rec.option
+        v = lambda key: ws.cell(rows[labels[key]], col).value  # noqa: E731
+        assert ws.cell(6, col).value == f"#{rec.rank} {o.spec.model}"
+        assert v("battery") == o.spec.model
+        assert v("series") == o.series and v("parallel") == o.parallel
+        assert v("usable") == pytest.approx(o.usable_kwh)
+        assert v("rte") == pytest.approx(rec.round_trip_efficiency)
+        assert v("capex_pv") == pytest.approx(rec.lcos.capex)
+        assert v("charging_pv") == pytest.approx(rec.lcos.charging_pv)
+        assert v("delivered_pv") == pytest.approx(rec.lcos.delivered_kwh_pv)
+        # IEC 62485-2 boost airflow, Q = 0.05 n I_gas C10 1e-3 (REFERENCES.md [text])
+        cells = o.spec.cells_per_block * o.blocks
+        gas = 20 if o.spec.chemistry == "flooded" else 8
+        assert v("airflow") == pytest.approx(0.05 * cells * gas * o.spec.c10_ah * 1e-3)
+        assert v("airflow") == pytest.approx(bank_ventilation(o.spec.chemistry, cells, o.spec.c10_ah).boost_m3h)
+        # derived figures are live formulas over the rows above
+        s, p = rows[labels["series"]], rows[labels["parallel"]]
+        c = openpyxl.utils.get_column_letter(col)
+        assert v("blocks") == f"={c}{s}*{c}{p}"
+        assert v("per_kwh") == f"={c}{rows[labels['total_pv']]}/{c}{rows[labels['delivered_pv']]}"
+        assert v("opening") == f"=28*{c}{rows[labels['airflow']]}"
+    # best value of a row is marked by conditional formatting
+    rules = [r for rng in ws.conditional_formatting for r in rng.rules]
+    assert len(rules) == sum(1 for m in metrics("USD") if m.best)
+    assert all("MAX(" in r.formula[0] or "MIN(" in r.formula[0] for r in rules)
+
+
+def _chart_xml(path) -> list[str]:
+    with zipfile.ZipFile(path) as z:
+        return [z.read(n).decode() for n in sorted(z.namelist()) if re.match(r"xl/charts/chart\d+\.xml", n)]
+
+
+def test_native_charts(tmp_path, records):
+    out = write_comparison(make_job(), records[:4], tmp_path / "c.xlsx", hourly=False)
+    charts = _chart_xml(out)
+    assert len(charts) == 5
+    kinds = [("barChart" in x, "scatterChart" in x) for x in charts]
+    assert kinds.count((True, False)) == 2 and kinds.count((False, True)) == 3
+    stacked = [x for x in charts if '<c:grouping val="stacked"/>' in x]
+    assert len(stacked) == 1 and stacked[0].count("<c:ser>") == 6  # the six LCOS terms
+    soc = [x for x in charts if "State of charge" in x]
+    assert len(soc) == 2 and all(x.count("<c:ser>") == 4 for x in soc)
+    assert any("Summary!$B$6:$E$6" in x for x in charts)  # categories: the option header row
+
+
+def test_no_traces_no_soc_charts(tmp_path, records):
+    recs = [replace(r, soc_trace=None, voltage_trace=None, monthly=None) for r in records[:2]]
+    out = write_comparison(make_job(), recs, tmp_path / "c.xlsx")
+    assert len(_chart_xml(out)) == 2
+    assert openpyxl.load_workbook(out, read_only=True).sheetnames == ["Summary", "Charts", "Chart data", "Notes"]
+
+
+def test_hourly_sheets_row_by_row(tmp_path, records):
+    recs = records[:2]
+    out = write_comparison(make_job(), recs, tmp_path / "c.xlsx", hourly=True)
+    wb = openpyxl.load_workbook(out, read_only=True)
+    assert wb.sheetnames[-2:] == ["Hourly 1", "Hourly 2"]
+    rows = list(wb["Hourly 2"].iter_rows(values_only=True))
+    assert rows[1][:6] == ("Hour [h]", "Month", "Day", "Hour of day", "State of charge [%]", "Bank voltage [V]")
+    data = rows[2:]
+    assert len(data) == 8760
+    hour = np.array([r[0] for r in data])
+    assert np.array_equal(hour, np.arange(8760))
+    soc = np.array([r[4] for r in data], dtype=float)
+    np.testing.assert_allclose(soc, recs[1].soc_trace, rtol=1e-15)  # xlsxwriter writes 16 significant digits
+    # 365-day calendar: 31 days of January, December ends the year (common practice, no source)
+    months = [r[1] for r in data]
+    assert months[31 * 24 - 1] == 1 and months[31 * 24] == 2 and months[-1] == 12
+    assert data[-1][2] == 365 and data[-1][3] == 23
+
+
+def test_user_text_written_as_text(tmp_path, records):
+    job = make_job(site='=HYPERLINK("http://x","y")', client="@SUM(A1)")
+    out = write_comparison(job, records[:2], tmp_path / "c.xlsx", hourly=False)
+    with zipfile.ZipFile(out) as z:
+        xml = z.read("xl/worksheets/sheet1.xml").decode()
+    assert re.search(r"<f>[^<]*HYPERLINK", xml) is None and re.search(r"<f>[^<]*SUM\(A1\)", xml) is None
+    ws = openpyxl.load_workbook(out)["Summary"]
+    assert ws["A2"].value == 'Site: =HYPERLINK("http://x","y")' and ws["A2"].data_type == "s"
+
+
+def test_output_refused_without_force(tmp_path, records):
+    out = tmp_path / "c.xlsx"
+    write_comparison(make_job(), records[:1], out, hourly=False)
+    size = out.stat().st_size
+    with pytest.raises(FileFormatError, match="already exists"):
+        write_comparison(make_job(), records[:2], out, hourly=False)
+    assert out.stat().st_size == size
+    write_comparison(make_job(), records[:2], out, hourly=False, force=True)
+    assert not list(tmp_path.glob(".*part"))
+    with pytest.raises(InputError):
+        write_comparison(make_job(), [], tmp_path / "e.xlsx")
+
+
+def test_select_records(records):
+    assert [r.rank for r in select_records(records, options=[1, 3])] == [1, 3]
+    assert [r.rank for r in select_records(records, top=2)] == [1, 2]
+    assert len(select_records(records)) == len(records)
+    with pytest.raises(InputError, match="option ranks"):
+        select_records(records, options=[1, 99])
+    with pytest.raises(InputError):
+        select_records(records, options=[1], top=2)
+
+
+def test_representative_weeks():
+    # mid-January and mid-July; seasons swap south of the equator (common practice, no source)
+    assert representative_weeks(45.0) == (14 * 24, 195 * 24)
+    assert representative_weeks(-33.0) == (195 * 24, 14 * 24)
+    assert max(representative_weeks(0.0)) + HOURS_PER_WEEK <= 8760
+
+
+def test_parallel_curve_never_falls_and_beats_simple_multiple(records):
+    # more parallel strings never deliver less energy, and each string at a lower current delivers more
+    # (KiBaM, Manwell & McGowan 1993: q(T) rises with T; DESIGN.md property)
+    ps, bank, naive = parallel_curve(make_job(), records[0], 6)
+    assert ps == [1, 2, 3, 4, 5, 6]
+    assert all(b2 > b1 for b1, b2 in zip(bank, bank[1:]))
+    assert bank[0] == pytest.approx(naive[0], rel=1e-9)
+    assert all(b >= n - 1e-9 for b, n in zip(bank, naive))
+
+
+@settings(max_examples=10, deadline=None)
+@given(st.integers(1, 6))
+def test_summary_has_one_column_per_option(tmp_path_factory, records, k):
+    out = write_comparison(make_job(), records[:k], tmp_path_factory.mktemp("c") / "c.xlsx", hourly=False)
+    ws = openpyxl.load_workbook(out)["Summary"]
+    header = [ws.cell(6, c).value for c in range(2, 2 + k + 1)]
+    assert header[:k] == [f"#{r.rank} {r.option.spec.model}" for r in records[:k]] and header[k] is None
