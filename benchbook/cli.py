@@ -45,6 +45,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--catalog", help="battery catalog: a workbook with a Batteries table, or a CSV with its headers")
     p.add_argument("--json", action="store_true", help="print the options as JSON")
     p.add_argument("--top", type=int, default=10, help="how many options to print (default 10)")
+    p.add_argument("--rank-by", choices=("cost", "unserved", "price", "weight"), default="cost",
+                   help="ranking: cost per delivered kWh (cyclic) or cost of readiness per year (standby); "
+                        "unserved energy; price; weight (default cost)")
     p.set_defaults(handler=_cmd_size)
     return parser
 
@@ -60,7 +63,7 @@ def _cmd_new(args: argparse.Namespace) -> int:
 def _cmd_size(args: argparse.Namespace) -> int:
     from benchbook.sheets.report import size_report
 
-    print(size_report(args.job, catalog=args.catalog, as_json=args.json, top=args.top))
+    print(size_report(args.job, catalog=args.catalog, as_json=args.json, top=args.top, rank_by=args.rank_by))
     return 0
 
 
@@ -76,6 +79,12 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BenchbookError as exc:
         print(f"Error: {exc}", file=sys.stderr)
         return exc.exit_code
+    except BrokenPipeError:  # output piped into head & co.: not an error
+        try:
+            sys.stdout = open(os.devnull, "w")
+        except OSError:
+            pass
+        return 0
     except KeyboardInterrupt:
         print("Error: interrupted", file=sys.stderr)
         return 130
