@@ -166,8 +166,10 @@ def parallel_curve(job: Any, record: Any, max_parallel: int) -> tuple[list[int],
     kw: dict = ({"load_a": max(p.current_a for p in job.duty_cycle)} if job.application == "standby"
                 and job.duty_cycle else {"load_w": max(job.mean_dc_power_w, 1e-6)})
     ps, bank, naive = [], [], []
+    fit: dict = {}
     for p in range(1, max(1, int(max_parallel)) + 1):
-        b = bank_at_load(o.spec, o.series, p, **kw)
+        b = bank_at_load(o.spec, o.series, p, **kw, **fit)
+        fit = {"kibam": b.kibam, "peukert_k": b.peukert_k}  # one fit per battery, reused for every P
         ps.append(p)
         bank.append(b.kibam_usable_kwh)
         naive.append(b.kibam_usable_kwh / b.kibam_parallel_gain if b.kibam_parallel_gain > 0 else float("nan"))
@@ -547,20 +549,25 @@ def _write_hourly(wb, f: dict, records: list, profile: Any) -> None:
             ws.write_string(1, c, h, f["bold"])
         ws.freeze_panes(2, 0)
         steps = len(soc)
-        months = month_of if steps == len(month_of) else np.ones(steps, dtype=int)
+        months = (month_of if steps == len(month_of) else np.ones(steps, dtype=int)).tolist()
         pct = f["pct"]
         wn = ws.write_number
+        # plain Python numbers write faster than numpy scalars; every row strictly in order (constant_memory)
+        soc_l = soc.tolist()
+        volt_l = volt.tolist() if volt is not None else None
+        load_l = load.tolist() if load is not None else None
+        charge_l = charge.tolist() if charge is not None else None
         for i in range(steps):
             row = 2 + i
             wn(row, 0, i)
-            wn(row, 1, int(months[i]))
+            wn(row, 1, months[i])
             wn(row, 2, i // 24 + 1)
             wn(row, 3, i % 24)
-            wn(row, 4, soc[i], pct)
+            wn(row, 4, soc_l[i], pct)
             c = 5
-            if volt is not None:
-                wn(row, c, volt[i])
+            if volt_l is not None:
+                wn(row, c, volt_l[i])
                 c += 1
-            if load is not None:
-                wn(row, c, load[i])
-                wn(row, c + 1, charge[i])
+            if load_l is not None:
+                wn(row, c, load_l[i])
+                wn(row, c + 1, charge_l[i])
