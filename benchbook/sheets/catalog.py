@@ -22,7 +22,7 @@ from benchbook.errors import FileFormatError, Problems, TemplateError
 from benchbook.model.battery import BatterySpec, spec_problems
 from benchbook.sheets.names import BATTERY_HEADERS, CYCLE_DODS, INTAKE, RATE_HOURS, TableSpec
 from benchbook.sheets.safeio import atomic_output, sniff
-from benchbook.sheets.tables import (Book, CellRef, Found, TableInfo, coerce, find_table, is_blank,
+from benchbook.sheets.tables import (Book, CellRef, Found, TableInfo, as_typed, coerce, find_table, is_blank,
                                      match_headers, write_text, write_value)
 
 #: The Batteries table of the contract.
@@ -97,7 +97,7 @@ def entries_from_book(book: Book, problems: Problems, required: bool = True) -> 
     raw_rows = book.table_rows(info)
     rows = [(info.header_row + 1 + i, list(r)) for i, r in enumerate(raw_rows)]
     for ref, value in book.below(info):
-        problems.add(*book.where(ref), value,
+        book.add(problems, ref, value,
                      f"nothing directly below table Batteries ({info.ref}); extend the table to include this row",
                      "battery catalog")
     return _entries(info, rows, problems, book.label)
@@ -160,19 +160,21 @@ def _entries(info: TableInfo, rows: list[tuple[int, list[Any]]], problems: Probl
         return []
     out: list[CatalogEntry] = []
     seen: dict[str, str] = {}
+    j_model = mapping.get(0)  # BATTERY_HEADERS[0] is Model
     for r, row in rows:
         if all(is_blank(v) for v in row):
             continue
+        model = row[j_model] if j_model is not None and j_model < len(row) else None
+        key = str(model).strip().casefold() if not is_blank(model) else None
+        if key is not None and key in seen:
+            problems.add(sheet, f"{_col(info.first_col + j_model)}{r}", model,
+                         f"a model name not used before (also in {seen[key]})", "battery model")
+            continue
+        if key is not None:
+            seen[key] = f"{sheet}!{_col(info.first_col + j_model)}{r}"
         entry = _entry(r, row, info, mapping, problems, sheet, decimal_comma)
-        if entry is None:
-            continue
-        model = entry.spec.model
-        if model.casefold() in seen:
-            problems.add(*entry.cells["model"], model,
-                         f"a model name not used before (also in {seen[model.casefold()]})", "battery model")
-            continue
-        seen[model.casefold()] = entry.where("model")
-        out.append(entry)
+        if entry is not None:
+            out.append(entry)
     if not out and not problems:
         problems.add(sheet, info.ref if info.n_rows else "", Found("no battery rows"),
                      "at least one battery in table Batteries", "battery catalog")
@@ -198,12 +200,12 @@ def _entry(r: int, row: list[Any], info: TableInfo, mapping: dict[int, int], pro
             cells[h.field] = ref.cell
         if is_blank(raw):
             if h.required:
-                problems.add(sheet, ref.cell, raw, h.expected, _what(row, mapping, h.header))
+                problems.add(sheet, ref.cell, as_typed(raw), h.expected, _what(row, mapping, h.header))
                 bad.add(h.field)
             continue
         v, expected = coerce(h, raw, decimal_comma)
         if expected is not None:
-            problems.add(sheet, ref.cell, raw, expected, _what(row, mapping, h.header))
+            problems.add(sheet, ref.cell, as_typed(raw), expected, _what(row, mapping, h.header))
             bad.add(h.field)
             continue
         if h.key is not None:
@@ -224,7 +226,7 @@ def _entry(r: int, row: list[Any], info: TableInfo, mapping: dict[int, int], pro
             if isinstance(fp.value, tuple) and len(fp.value) == 2:
                 key = _nearest_key(fp.field, fp.value[0])
                 cell, value = keyed.get((fp.field, key), cell), fp.value[1]
-        problems.add(sheet, cell, value, fp.expected, _what(row, mapping, _header_of(fp.field, fp.value)))
+        problems.add(sheet, cell, as_typed(value), fp.expected, _what(row, mapping, _header_of(fp.field, fp.value)))
         bad.add(fp.field)
     if bad:
         return None

@@ -19,7 +19,7 @@ from benchbook.model.job import DutyPeriod, Economics, Generator, HourlyProfile,
 from benchbook.sheets.catalog import CatalogEntry, entries_from_book, read_catalog_entries
 from benchbook.sheets.names import HOURS_PER_YEAR, INTAKE, MONTHS, NameSpec, TableSpec, template_bytes
 from benchbook.sheets.safeio import atomic_output
-from benchbook.sheets.tables import Book, CellRef, Found, coerce, find_table, is_blank, match_headers
+from benchbook.sheets.tables import Book, CellRef, Found, as_typed, coerce, find_table, is_blank, match_headers
 
 #: Problems reported cell by cell for one table before the rest are summed up in one line.
 MAX_PROBLEMS_PER_TABLE = 20
@@ -74,9 +74,9 @@ class _Reader:
     # -- problems
     def add(self, ref: Optional[CellRef], value: Any, expected: str, what: str) -> None:
         if ref is None:
-            self.problems.add(self.book.path.name, "", value, expected, what)
+            self.problems.add(self.book.path.name, "", as_typed(value), expected, what)
         else:
-            self.problems.add(*self.book.where(ref), value, expected, what)
+            self.book.add(self.problems, ref, value, expected, what)
 
     def add_at(self, name: str, value: Any, expected: str) -> None:
         spec = INTAKE.name(name)
@@ -120,12 +120,13 @@ class _Reader:
 
     # -- tables
     def read_table(self, ts: TableSpec, needed: str, key_fields: tuple[str, ...],
-                   required_fields: tuple[str, ...]) -> Optional[list[_Row]]:
+                   required_fields: tuple[str, ...], skip_unused: bool = False) -> Optional[list[_Row]]:
         """Rows of table ``ts`` (None when it is absent or its headers are unusable).
 
         ``needed`` (non-empty) says why the table must exist. A row is *used*
         when any of ``key_fields`` is filled; in a used row every one of
-        ``required_fields`` must be filled.
+        ``required_fields`` must be filled. With ``skip_unused``, a table with
+        no used row at all is returned as ``[]`` without judging its cells.
         """
         info = find_table(self.book.tables, ts.name)
         if info is None:
@@ -149,7 +150,14 @@ class _Reader:
             return None
         local = Problems()
         rows: list[_Row] = []
-        for i, raw_row in enumerate(self.book.table_rows(info)):
+        raw_rows = self.book.table_rows(info)
+        if skip_unused:
+            keys = [mapping[k] for k, h in enumerate(ts.headers) if h.field in key_fields and k in mapping]
+            if not any(not is_blank(r[j]) for r in raw_rows for j in keys if j < len(r)):
+                self._below(local, info, ts)
+                self._merge(local, info, ts)
+                return []
+        for i, raw_row in enumerate(raw_rows):
             r = info.header_row + 1 + i
             row = _Row(r)
             for k, h in enumerate(ts.headers):
@@ -166,7 +174,7 @@ class _Reader:
                     row.used = True
                 value, expected = coerce(h, raw)
                 if expected is not None:
-                    local.add(*self.book.where(ref), raw, expected, f"{ts.name}, {h.header}")
+                    self.book.add(local, ref, raw, expected, f"{ts.name}, {h.header}")
                     row.ok = False
                 else:
                     row.values[h.field] = value
@@ -174,16 +182,18 @@ class _Reader:
                 for f in required_fields:
                     if f in row.refs and row.values[f] is None and not _was_bad(local, row.refs[f], self.book):
                         h = ts.header(f)
-                        local.add(*self.book.where(row.refs[f]), None, h.expected + " (the row is in use)",
-                                  f"{ts.name}, {h.header}")
+                        self.book.add(local, row.refs[f], None, h.expected + " (the row is in use)",
+                                      f"{ts.name}, {h.header}")
                         row.ok = False
             rows.append(row)
-        for ref, value in self.book.below(info):
-            local.add(*self.book.where(ref), value,
-                      f"nothing directly below table {ts.name} ({info.ref}); extend the table to include this row",
-                      ts.name)
+        self._below(local, info, ts)
         self._merge(local, info, ts)
         return rows
+
+    def _below(self, local: Problems, info, ts: TableSpec) -> None:
+        for ref, value in self.book.below(info):
+            self.book.add(local, ref, value, f"nothing directly below table {ts.name} ({info.ref}); "
+                          "extend the table to include this row", ts.name)
 
     def _merge(self, local: Problems, info, ts: TableSpec) -> None:
         errs = local.errors
@@ -348,7 +358,7 @@ def _read_months(rd: _Reader, parts: _Parts, source: Any) -> None:
 
 def _read_hourly(rd: _Reader, parts: _Parts) -> None:
     ts = INTAKE.table("Hourly")
-    rows = rd.read_table(ts, "", ("load_w", "charge_w"), ("hour", "load_w", "charge_w"))
+    rows = rd.read_table(ts, "", ("load_w", "charge_w"), ("hour", "load_w", "charge_w"), skip_unused=True)
     if rows is None or not any(r.used for r in rows):
         return
     info = find_table(rd.book.tables, ts.name)
@@ -429,7 +439,7 @@ def _check_voltage_fit(rd: _Reader, entries: list[CatalogEntry]) -> None:
               + " or ".join(f"{b:g}" for b in blocks) + " V")
     job_where = ref.where if ref is not None else "the system voltage"
     for e in entries:
-        rd.problems.add(*e.cells["block_voltage_v"], e.spec.block_voltage_v,
+        rd.problems.add(*e.cells["block_voltage_v"], as_typed(e.spec.block_voltage_v),
                         f"a block voltage that divides the system voltage {sysv:g} V ({job_where})",
                         f"{e.spec.model}, Block voltage [V]")
 

@@ -254,6 +254,15 @@ def match_headers(info: TableInfo, spec) -> tuple[dict[int, int], list[HeaderPro
 
 # ---- judging values ------------------------------------------------------------------------
 
+def as_typed(value: Any) -> Any:
+    """A value as a spreadsheet shows it: whole floats as ints (calamine reads ``5`` as ``5.0``)."""
+    if isinstance(value, float) and value.is_integer() and abs(value) < 1e15:
+        return int(value)
+    if isinstance(value, tuple):
+        return tuple(as_typed(v) for v in value)
+    return value
+
+
 def is_blank(raw: Any) -> bool:
     return raw is None or (isinstance(raw, str) and not raw.strip())
 
@@ -292,10 +301,9 @@ def coerce(spec, raw: Any, decimal_comma: bool = False) -> tuple[Any, Optional[s
     Fractions accept text like ``"50%"``; numbers accept numeric text.
     """
     kind = spec.kind
-    expected = spec.expected
     if kind == "text":
         if isinstance(raw, bool) or isinstance(raw, (_dt.date, _dt.time, _dt.timedelta)):
-            return None, expected
+            return None, spec.expected
         if isinstance(raw, float) and raw.is_integer():
             return str(int(raw)), None
         return str(raw).strip(), None
@@ -304,29 +312,33 @@ def coerce(spec, raw: Any, decimal_comma: bool = False) -> tuple[Any, Optional[s
         for c in spec.choices:
             if text == c.casefold():
                 return c, None
-        return None, expected
-    pct = False
-    if kind == "fraction" and isinstance(raw, str) and raw.strip().endswith("%"):
-        raw, pct = raw.strip()[:-1], True
-    v = _number(raw, decimal_comma)
+        return None, spec.expected
+    if type(raw) is float:  # the common case, kept fast for 8760-row tables
+        v: Optional[float] = raw if math.isfinite(raw) else None
+        pct = False
+    else:
+        pct = kind == "fraction" and isinstance(raw, str) and raw.strip().endswith("%")
+        if pct:
+            raw = raw.strip()[:-1]
+        v = _number(raw, decimal_comma)
     if v is None:
         if isinstance(raw, str) and re.match(r"^\s*[+-]?\d", raw):
             if "," in raw and not decimal_comma:
-                return None, expected + "; use a decimal point, not a comma"
-            return None, expected + "; type the number alone (the unit is in the label)"
-        return None, expected
+                return None, spec.expected + "; use a decimal point, not a comma"
+            return None, spec.expected + "; type the number alone (the unit is in the label)"
+        return None, spec.expected
     if pct:
         v /= 100.0
     if kind == "integer":
-        if not v.is_integer():
-            return None, expected
-        if not _in_bounds(spec, v):
-            return None, expected
+        if not v.is_integer() or not _in_bounds(spec, v):
+            return None, spec.expected
         return int(v), None
     if not _in_bounds(spec, v):
-        if kind == "fraction" and spec.high == 1 and 1 < v <= 100:
-            return None, f"{expected}; {v:g} % is {v / 100:.2f}"
-        return None, expected
+        if kind == "fraction" and spec.high == 1 and 2 <= v <= 100:
+            frac = v / 100
+            shown = f"{frac:.2f}" if round(frac, 2) == frac else f"{frac:g}"
+            return None, f"{spec.expected}; {v:g} % is {shown}"
+        return None, spec.expected
     return v, None
 
 
@@ -408,6 +420,10 @@ class Book:
         return [(CellRef(info.sheet, r, c), row[c - 1]) for c in range(info.first_col, info.last_col + 1)
                 if c - 1 < len(row) and not is_blank(row[c - 1])]
 
+    def add(self, problems, ref: CellRef, value: Any, expected: str, what: str = "") -> None:
+        """Add one problem at ``ref`` to ``problems`` (a :class:`~benchbook.errors.Problems`)."""
+        problems.add(*self.where(ref), as_typed(value), expected, what)
+
     def where(self, ref: CellRef) -> tuple[str, str]:
         """``(sheet, cell)`` for an InputError, with this book's label."""
         return self.label + ref.sheet, ref.cell
@@ -426,6 +442,9 @@ def write_text(cell, text: Any) -> None:
     apostrophe does.
     """
     s = "" if text is None else str(text)
+    if not s:
+        cell.value = None
+        return
     cell.value = s
     cell.data_type = "s"
     if s.startswith(_FORMULA_START):
