@@ -492,6 +492,8 @@ QUOTE_NAMES: tuple[NameSpec, ...] = (
     _q("quote_horizon_years", "Costing horizon", "years", "integer", "job.economics.horizon_years", _G_Q_PERF),
     _q("quote_cost_per_kwh", "Cost per delivered kWh", "currency/kWh", "number", "cost_per_kwh", _G_Q_PERF, True),
     _q("quote_unserved_kwh", "Unserved energy", "kWh/year", "number", "unserved_kwh", _G_Q_PERF),
+    _q("quote_cost_of_readiness", "Cost of readiness (standby jobs)", "currency/year", "number",
+       "cost_of_readiness_per_year", _G_Q_PERF, help="Text 'not applicable' for cyclic jobs."),
     _q("quote_subtotal", "Subtotal (formula)", "currency", "number", "formula", _G_Q_TOT, True),
     _q("quote_discount_rate", "Discount rate (editable)", "%", "fraction", "terms.discount_rate", _G_Q_TOT, True),
     _q("quote_discount", "Discount (formula)", "currency", "number", "formula", _G_Q_TOT, True),
