@@ -30,12 +30,11 @@ from typing import Any, Iterable, Mapping
 
 from benchbook.errors import InputError
 
-_SPACES = "\u00a0\u202f\u2009\u2007 '"  # no-break, narrow no-break, thin, figure space, space, apostrophe
+_SPACES = "\u00a0\u202f\u2009\u2007 '\u2019"  # no-break, narrow no-break, thin, figure space, space, apostrophes
 _ERRORS = ("#DIV/0!", "#N/A", "#NAME?", "#NULL!", "#NUM!", "#REF!", "#VALUE!", "#SPILL!", "#CALC!",
            "#GETTING_DATA", "#FIELD!", "#BLOCKED!", "#CONNECT!", "#BUSY!", "#UNKNOWN!")
 _DATE_TEXT = re.compile(r"^\s*(\d{4}[-/.]\d{1,2}[-/.]\d{1,2}|\d{1,2}[-/.]\d{1,2}[-/.]\d{2,4})([ T]\d{1,2}:\d{2}(:\d{2})?)?\s*$")
-_BODY = re.compile(r"^(?P<mant>[0-9.,\u00a0\u202f\u2009\u2007 ']*[0-9][0-9.,\u00a0\u202f\u2009\u2007 ']*)"
-                   r"(?:[eE](?P<exp>[+-]?[0-9]{1,3}))?$")
+_BODY = re.compile(f"^(?P<mant>[0-9.,{_SPACES}]*[0-9][0-9.,{_SPACES}]*)" r"(?:[eE](?P<exp>[+-]?[0-9]{1,3}))?$")
 
 
 def _where(where: Any) -> tuple[str, str]:
@@ -97,8 +96,8 @@ def _text_to_float(text: str, decimal: str) -> tuple[float | None, str]:
     if m is None:
         return None, ""
     mant, exp = m.group("mant").strip(_SPACES), m.group("exp")
-    dot = _grouped(mant, ".", ",\u00a0\u202f\u2009\u2007 '")    # 1,265.5  1 265.5  1'265.5
-    comma = _grouped(mant, ",", ".\u00a0\u202f\u2009\u2007 '")  # 1.265,5  1 265,5  2,15
+    dot = _grouped(mant, ".", "," + _SPACES)    # 1,265.5  1 265.5  1'265.5
+    comma = _grouped(mant, ",", "." + _SPACES)  # 1.265,5  1 265,5  2,15
     if decimal == ".":
         plain = dot
     elif decimal == ",":

@@ -111,7 +111,8 @@ def _translate(exc: BaseException, name: str) -> FileFormatError | None:
     if isinstance(exc, MemoryError):
         return FileFormatError(f"{name}: is too large to read with the memory available; split it or lower its size")
     if isinstance(exc, _PARSER_ERRORS) or (isinstance(exc, _LIBRARY_ERRORS) and _from_library(exc, _PARSERS)):
-        inner = chain[-1]  # openpyxl wraps the parser's error in "Unable to read workbook ..."
+        # openpyxl wraps the parser's error in "Unable to read workbook ..."; show the parser's own
+        inner = next((c for c in chain if not str(c).startswith("Unable to read workbook")), exc)
         detail = str(inner).splitlines()[0][:200] if str(inner) else ""
         return FileFormatError(f"{name}: could not be read as a workbook ({type(inner).__name__}: {detail}); "
                                "open it in a spreadsheet application and save it again as .xlsx")
