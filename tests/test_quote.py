@@ -22,7 +22,7 @@ from benchbook.model.job import Job, Load
 from benchbook.model.options import enumerate_options
 from benchbook.model.safety import bank_short_circuit
 from benchbook.sheets import names as N
-from benchbook.sheets.quote import QuoteTerms, quote_values, write_quote
+from benchbook.sheets.quote import QuoteTerms, quote_template_problems, quote_values, write_quote
 from benchbook.sheets.quote_template import build_quote_template
 
 SPECS = {s.model: s for s in DEFAULT_CATALOG}
@@ -245,8 +245,10 @@ def test_outputs_are_atomic_and_inputs_untouched(tmp_path, options):
     assert not list(tmp_path.glob(".*part"))
     tpl_copy = tmp_path / "t.xlsx"
     tpl_copy.write_bytes(TEMPLATE.read_bytes())
-    with pytest.raises(InputError, match="template"):
+    before_copy = tpl_copy.read_bytes()
+    with pytest.raises(FileFormatError, match="input"):
         write_quote(make_job(), rec, tpl_copy, template=tpl_copy, force=True)
+    assert tpl_copy.read_bytes() == before_copy
     with pytest.raises(InputError, match="A4 or Letter"):
         write_quote(make_job(), rec, tmp_path / "x.xlsx", paper="A3")
 
@@ -263,6 +265,22 @@ def test_paper_and_header_footer(tmp_path, options):
         assert ws.sheet_properties.pageSetUpPr.fitToPage and ws.page_setup.fitToWidth == 1
     assert wb["Quote"].print_title_rows
     assert wb["Quote"].print_area
+
+
+def test_template_areas_and_table_room_are_checked(tmp_path):
+    wb = openpyxl.load_workbook(TEMPLATE)
+    wb.defined_names["quote_arrangement_last"].attr_text = "'Arrangement'!$D$20"  # only 3 columns wide
+    tab = wb["Quote"].tables["QuoteItems"]
+    c1, r1, c2, _ = range_boundaries(tab.ref)
+    tab.ref = f"{get_column_letter(c1)}{r1}:{get_column_letter(c2)}{r1 + 4}"
+    tab.autoFilter.ref = tab.ref
+    bad = tmp_path / "bad.xlsx"
+    wb.save(bad)
+    problems = quote_template_problems(bad)
+    assert len(problems) == 2
+    assert "quote_arrangement_first and quote_arrangement_last" in problems[0] and "3 columns" in problems[0]
+    assert "4 data rows" in problems[1]
+    assert quote_template_problems(TEMPLATE) == []
 
 
 def test_template_missing_names_lists_every_problem(tmp_path, options):
@@ -349,6 +367,23 @@ def test_restyled_and_moved_template_is_filled_by_name(tmp_path, options):
     assert _cell(wb, "quote_grand_total").value.startswith("=")
     cautions_first = _cell(wb, "quote_cautions_first")
     assert cautions_first.value == "Hydrogen and ventilation"
+
+
+def test_standby_quote_from_the_real_pipeline(tmp_path):
+    from benchbook.model.evaluate import evaluate_options
+    from benchbook.model.job import DutyPeriod
+
+    job = Job(site="Kestrel Relay (invented)", client="Upland Links (invented)", application="standby",
+              system_voltage_v=48, autonomy_days=0.5, max_dod=1.0, min_temp_c=15, design_margin=1.1,
+              aging_factor=1.25, end_voltage_per_cell_v=1.75, inverter_efficiency=1.0,
+              duty_cycle=(DutyPeriod(60.0, 1.0), DutyPeriod(25.0, 239.0)), charger_power_w=2500.0)
+    rec = evaluate_options(job)[0]
+    res = write_quote(job, rec, tmp_path / "q.xlsx", terms=TERMS)
+    wb = openpyxl.load_workbook(res.path)
+    assert _cell(wb, "quote_application").value == "standby"
+    assert _cell(wb, "quote_cost_of_readiness").value == pytest.approx(rec.cost_of_readiness_per_year)
+    assert _cell(wb, "quote_bank_series").value * rec.option.spec.block_voltage_v == 48
+    assert any(v == "Sizing method" for v in (c.value for c in wb["Quote"]["B"]))
 
 
 # ---- arrangement drawing -------------------------------------------------------------------

@@ -14,13 +14,13 @@ import pytest
 from openpyxl.utils.cell import get_column_letter, range_boundaries
 
 from benchbook.model.bom import BomLine, quote_totals
+from benchbook.model.evaluate import evaluate_options
 from benchbook.model.options import enumerate_options
 from benchbook.model.safety import bank_ventilation, vent_opening_cm2
 from benchbook.sheets import office
 from benchbook.sheets.compare import metrics, write_comparison
 from benchbook.sheets.quote import write_quote
 from office import require_office  # tests/office.py
-from test_compare import full_record
 from test_quote import TERMS, make_job, make_record, option_with
 
 pytestmark = pytest.mark.office
@@ -164,7 +164,8 @@ def test_quote_pdf_refused_when_it_exists(tmp_path, options):
 def compare_files(tmp_path_factory, options):
     require_office()
     d = tmp_path_factory.mktemp("compare")
-    recs = [full_record(o, i + 1, i) for i, o in enumerate(options[:4])]
+    # the real pipeline: sized, simulated, aged and costed by benchbook.model.evaluate
+    recs = evaluate_options(make_job())[:4]
     path = write_comparison(make_job(), recs, d / "compare.xlsx", hourly=False)
     return d, recs, path
 

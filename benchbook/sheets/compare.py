@@ -134,6 +134,8 @@ def metrics(currency: str) -> tuple[Metric, ...]:
         Metric("s_charging", f"  of which charging energy [{c}/kWh]", "0.000", formula=share % "charging_pv"),
         Metric("s_fuel", f"  of which generator fuel [{c}/kWh]", "0.000", formula=share % "fuel_pv"),
         Metric("s_eol", f"  of which end of life [{c}/kWh]", "0.000", formula=share % "eol_pv"),
+        Metric("readiness", f"Cost of readiness, standby jobs [{c}/year]", "#,##0",
+               lambda r: r.cost_of_readiness_per_year, best="min"),
         Metric("weight", "Weight of the blocks [kg]", "#,##0", lambda r: float(r.option.weight_kg), best="min",
                section="Site"),
         Metric("footprint", "Footprint of the blocks [m²]", "0.00", lambda r: float(r.option.footprint_m2),
@@ -325,6 +327,8 @@ def _write_all(wb, job: Any, records: list, hourly: bool, profile: Any) -> None:
             r += 1
             continue
         m: Metric = item
+        if m.key == "flags":  # 8 pt text wrapped in a 110 px column: about 30 characters a line
+            ws.set_row(r, 11 * max(1, max(math.ceil(len("; ".join(rec.option.flags)) / 30) for rec in records)) + 4)
         ws.write_string(r, 0, m.label, f["label"])
         fmt = f["cell"](m.fmt)
         for j, rec in enumerate(records):
@@ -340,8 +344,6 @@ def _write_all(wb, job: Any, records: list, hourly: bool, profile: Any) -> None:
                     ws.write_string(r, col, "n/a", fmt)
                 else:
                     ws.write_number(r, col, float(v), fmt)
-        if m.key == "flags":
-            ws.set_row(r, 15 * max(1, max(math.ceil(len("; ".join(rec.option.flags)) / 28) for rec in records)))
         if m.best and n > 1:
             # best of the row, and only when the row is not all equal
             first = xl_rowcol_to_cell(r, 1, col_abs=False)

@@ -126,7 +126,7 @@ def convert(src: str | os.PathLike, target: str | os.PathLike, fmt: str | None =
             detail = (proc.stderr or proc.stdout or "").strip().splitlines()
             raise OfficeError(f"LibreOffice produced no {fmt} for {src_p.name} (exit {proc.returncode}"
                               + (f": {detail[-1]}" if detail else "") + ")")
-        with atomic_output(tgt, force=force) as out:
+        with atomic_output(tgt, force=force, inputs=(src_p,)) as out:
             shutil.copyfile(produced, out)
     return tgt
 

@@ -38,6 +38,8 @@ from benchbook.sheets import tables as T
 from benchbook.sheets.safeio import atomic_output, load_openpyxl
 
 PAPERS = {"A4": 9, "Letter": 1}
+#: Rows the QuoteItems table must have: the longest bill of materials has 10 lines.
+MIN_ITEM_ROWS = 10
 
 
 @dataclass(frozen=True)
@@ -147,6 +149,9 @@ def quote_values(job: Any, record: Any, terms: QuoteTerms) -> dict[str, Any]:
         "quote_horizon_years": int(job.economics.horizon_years),
         "quote_cost_per_kwh": float(record.cost_per_kwh),
         "quote_unserved_kwh": float(record.unserved_kwh),
+        "quote_cost_of_readiness": (float(record.cost_of_readiness_per_year)
+                                    if record.cost_of_readiness_per_year is not None
+                                    else f"not applicable ({job.application} job)"),
         "quote_discount_rate": float(terms.discount_rate),
         "quote_tax_rate": float(terms.tax_rate),
         "quote_weight_kg": float(opt.weight_kg),
@@ -432,9 +437,41 @@ def _page_setup(wb, paper: str, number: str, site: str, date: _dt.date) -> None:
 
 # ---- the filler ----------------------------------------------------------------------------
 
+def quote_template_problems(template: str | Path) -> list[str]:
+    """Every way ``template`` breaks the quote contract, one sentence each (empty when usable).
+
+    :func:`benchbook.sheets.names.check_template` (names and table headers),
+    plus what the filler needs of the areas: each ``*_first``/``*_last`` pair
+    on one sheet with the last cell below and right of the first, an
+    arrangement area at least 5 columns wide, and a ``QuoteItems`` table with
+    room for the bill of materials (at least 10 lines).
+    """
+    problems = N.check_template(template, "quote")
+    if problems:
+        return problems
+    wb = load_openpyxl(template)
+    pairs = (("quote_cautions_first", "quote_cautions_last", 2, 5),
+             ("quote_assumptions_first", "quote_assumptions_last", 2, 8),
+             ("quote_arrangement_first", "quote_arrangement_last", 5, 1))
+    for first, last, min_cols, min_rows in pairs:
+        a, b = T.resolve_name(wb, first).cell, T.resolve_name(wb, last).cell
+        if a is None or b is None:
+            continue  # optional names, absent
+        cols, rows = b.col - a.col + 1, b.row - a.row + 1
+        if a.sheet != b.sheet or cols < min_cols or rows < min_rows:
+            problems.append(f"{a.where} to {b.where}: the area of {first} and {last} must be one block on one "
+                            f"sheet of at least {min_rows} rows and {min_cols} columns; found {max(rows, 0)} "
+                            f"rows and {max(cols, 0)} columns" + ("" if a.sheet == b.sheet else " on two sheets"))
+    info = _table_info(wb, "QuoteItems")
+    if info.n_rows < MIN_ITEM_ROWS:
+        problems.append(f"{info.where}: table QuoteItems has {info.n_rows} data rows; expected at least "
+                        f"{MIN_ITEM_ROWS} for the bill of materials")
+    return problems
+
+
 def check_quote_template(template: str | Path) -> None:
     """Raise :class:`TemplateError` listing every way ``template`` breaks the quote contract."""
-    problems = N.check_template(template, "quote")
+    problems = quote_template_problems(template)
     if problems:
         raise TemplateError(f"{Path(template).name} does not fulfil the quote contract", problems)
 
@@ -516,14 +553,11 @@ def write_quote(job: Any, option_record: Any, path: str | Path, template: str | 
     if pdf and pdf_path.exists() and not force:
         raise InputError("--pdf", "", str(pdf_path), "a PDF name that does not exist yet (or --force)")
     tpl = Path(template) if template is not None else N.template_path("quote")
-    if out.exists() and tpl.exists() and out.resolve() == tpl.resolve():
-        raise InputError("-o", "", str(out), "an output name other than the template (benchbook never "
-                         "overwrites an input)")
     check_quote_template(tpl)
     wb = load_openpyxl(tpl)
     lines, totals = fill_quote(wb, job, option_record, paper=paper, terms=terms or QuoteTerms(),
                                allowances=allowances or BomAllowances())
-    with atomic_output(out, force=force) as tmp:
+    with atomic_output(out, force=force, inputs=(tpl,)) as tmp:
         wb.save(tmp)
     notes: list[str] = []
     written_pdf: Optional[Path] = None

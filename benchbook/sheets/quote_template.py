@@ -143,12 +143,13 @@ def build_quote_sheet(wb: Workbook) -> None:
         ("Horizon [years]", "quote_horizon_years", "0"),
         ("Cost per delivered kWh", "quote_cost_per_kwh", "#,##0.000"),
         ("Unserved energy [kWh/yr]", "quote_unserved_kwh", "#,##0.0"),
+        ("Cost of readiness [per year]", "quote_cost_of_readiness", "#,##0"),
         ("Currency", "quote_currency", "General"),
     ]
     for i, (label, name, fmt) in enumerate(perf):
         _pair(ws, wb, 12 + i, label, name, "D", "G", fmt=fmt, align="right")
-    ws["D21"].value = "Usable energy: at the design rate and the minimum temperature."
-    ws["D21"].font = _font(8, italic=True, color="6B7A83")
+    ws["D22"].value = "Usable energy: at the design rate and the minimum temperature."
+    ws["D22"].font = _font(8, italic=True, color="6B7A83")
 
     # ---- bill of materials ---------------------------------------------------------------
     top = 24
