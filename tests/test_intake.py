@@ -450,3 +450,23 @@ def test_formula_looking_text_stays_text_in_a_real_client(tmp_path):
     assert out[sheet][cell].value == "=1+2"   # not 3: written as text, never as a formula
     sheet, cell = _cell(out, "job_client")
     assert out[sheet][cell].value == "@SUM(1,2)"
+
+
+def test_cli_new_runs_and_refuses_to_overwrite(tmp_path, capsys):
+    from benchbook.cli import main
+
+    out = tmp_path / "new.xlsx"
+    assert main(["new", str(out)]) == 0
+    assert out.read_bytes() == template_path("intake").read_bytes()
+    assert main(["new", str(out)]) == 2  # bad input: "Error: …", no traceback
+    err = capsys.readouterr().err
+    assert err.startswith("Error: ") and "already exists" in err and "Traceback" not in err
+
+
+def test_hourly_fast_path_and_cell_by_cell_path_agree(tmp_path):
+    hourly = [[h + 1, 100.0 + h % 24, 50.0 * (h % 24 > 8)] for h in range(8760)]
+    fast = read_job(job_file(tmp_path, BASE, {"Loads": LOADS, "Hourly": hourly}))[0].hourly
+    hourly[7][1] = "107"  # a number stored as text leaves the fast path; the value is the same
+    slow = read_job(job_file(tmp_path, BASE, {"Loads": LOADS, "Hourly": hourly}, name="slow.xlsx"))[0].hourly
+    assert fast == slow
+    assert fast.load_w[7] == 107.0 and len(fast.charge_w) == 8760 and sum(fast.charge_w) == 50.0 * 15 * 365

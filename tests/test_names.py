@@ -16,6 +16,8 @@ import shutil
 
 import openpyxl
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from openpyxl.workbook.defined_name import DefinedName
 
 from benchbook.errors import TemplateError
@@ -23,6 +25,7 @@ from benchbook.model.job import DutyPeriod, Economics, Generator, Job
 from benchbook.sheets import names
 from benchbook.sheets.names import (INTAKE, check_template, closest, contract, contract_markdown, expected_text,
                                     normalize_header, template_bytes, template_path)
+from benchbook.sheets.tables import coerce
 
 TEMPLATE = template_path("intake")
 
@@ -298,3 +301,38 @@ def test_sheet_local_and_differently_cased_names_are_accepted(tmp_path):
         wb.defined_names["JOB_CLIENT"] = DefinedName("JOB_CLIENT", attr_text=text)
 
     assert check_template(_broken(tmp_path, edit), strict=True) == []
+
+
+# ---- judging cell values by the contract's rules (property tests) --------------------------
+
+_DOD = INTAKE.name("job_max_dod")
+_VOLT = INTAKE.name("job_system_voltage_v")
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.floats(min_value=0, max_value=1, exclude_min=True))
+def test_fraction_in_range_is_taken_as_is(x):
+    assert coerce(_DOD, x) == (x, None)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.integers(min_value=2, max_value=100))
+def test_percentage_typed_as_a_number_is_refused_with_the_fraction(n):
+    # 50 typed for 50 %: the fraction is n / 100 (definition of per cent)
+    value, expected = coerce(_DOD, float(n))
+    assert value is None and expected.endswith(f"{n} % is {n / 100:.2f}")
+    assert coerce(_DOD, f"{n}%") == (n / 100, None)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.floats(min_value=2, max_value=1000))
+def test_number_stored_as_text_reads_as_the_number(x):
+    # Python's repr of a float round-trips exactly (IEEE 754 shortest repr, PEP 3101 / Python docs)
+    assert coerce(_VOLT, repr(x)) == (x, None)
+    assert coerce(_VOLT, x) == (x, None)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.floats(allow_nan=False, allow_infinity=False).filter(lambda v: not 2 <= v <= 1000))
+def test_number_out_of_range_is_refused(x):
+    assert coerce(_VOLT, x) == (None, "a number from 2 to 1000 V")

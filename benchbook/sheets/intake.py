@@ -356,8 +356,36 @@ def _read_months(rd: _Reader, parts: _Parts, source: Any) -> None:
                 rd.add(r.refs[f], None, f"{ts.header(f).expected} ({why})", f"{ts.name}, {label}")
 
 
+def _clean_hourly(rd: _Reader, ts: TableSpec) -> Optional[HourlyProfile]:
+    """The hourly profile when every cell is a number in range and hours count up by one, else None.
+
+    The fast path for a good 8760-row table; anything else goes through the
+    cell-by-cell reader, which says what is wrong where.
+    """
+    info = find_table(rd.book.tables, ts.name)
+    if info is None or info.n_rows != HOURS_PER_YEAR or rd.book.below(info):
+        return None
+    mapping, header_problems = match_headers(info, ts)
+    if header_problems or len(mapping) != 3:
+        return None
+    raw = rd.book.table_rows(info)
+    cols = [[r[mapping[k]] if mapping[k] < len(r) else None for r in raw] for k in range(3)]
+    for k, col in enumerate(cols):
+        h = ts.headers[k]
+        if not all(type(v) is float for v in col) or not all(h.low <= v <= h.high for v in col):
+            return None
+    hours = cols[0]
+    if any(b != a + 1 for a, b in zip(hours, hours[1:])):
+        return None
+    return HourlyProfile(tuple(cols[1]), tuple(cols[2]))
+
+
 def _read_hourly(rd: _Reader, parts: _Parts) -> None:
     ts = INTAKE.table("Hourly")
+    fast = _clean_hourly(rd, ts)
+    if fast is not None:
+        parts.hourly = fast
+        return
     rows = rd.read_table(ts, "", ("load_w", "charge_w"), ("hour", "load_w", "charge_w"), skip_unused=True)
     if rows is None or not any(r.used for r in rows):
         return

@@ -364,6 +364,7 @@ class Book:
             self._wb.close()
             raise
         self._grids: dict[str, list[list[Any]]] = {}
+        self._rows: dict[str, list[list[Any]]] = {}
 
     def _guard(self, fn, *args: Any, **kw: Any) -> Any:
         """Call a python-calamine function; its failures (even a Rust panic) become FileFormatError."""
@@ -408,7 +409,9 @@ class Book:
 
     def table_rows(self, info: TableInfo) -> list[list[Any]]:
         """Data rows of a table (header excluded), as lists of raw values."""
-        return self._guard(lambda: self._cwb.get_table_by_name(info.name).to_python())
+        if info.name not in self._rows:
+            self._rows[info.name] = self._guard(lambda: self._cwb.get_table_by_name(info.name).to_python())
+        return self._rows[info.name]
 
     def below(self, info: TableInfo) -> list[tuple[CellRef, Any]]:
         """Non-blank cells in the row just under a table, within its columns."""
