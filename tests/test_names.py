@@ -168,6 +168,12 @@ def test_committed_template_is_what_the_generator_makes():
         assert vals_f == vals_s, ws_f.title
 
 
+def test_generated_files_are_reproducible():
+    from benchbook.sheets.make_templates import build_intake_template, workbook_bytes
+
+    assert workbook_bytes(build_intake_template()) == workbook_bytes(build_intake_template())
+
+
 def test_template_form_is_protected_with_unlocked_inputs_and_blocking_validation():
     wb = openpyxl.load_workbook(TEMPLATE)
     for title in ("Job", "Loads", "Batteries"):

@@ -12,6 +12,8 @@ from __future__ import annotations
 
 import argparse
 import io
+import re
+import zipfile
 from pathlib import Path
 from typing import Any, Sequence
 
@@ -353,11 +355,31 @@ def build_intake_template(specs: Sequence[BatterySpec] = DEFAULT_CATALOG):
     return wb
 
 
+#: Timestamp written into generated files, so that regenerating gives the same bytes.
+FIXED_TIME = (2024, 1, 1, 0, 0, 0)
+
+
+def workbook_bytes(wb) -> bytes:
+    """The .xlsx bytes of an openpyxl workbook, reproducibly: fixed zip and document timestamps."""
+    raw = io.BytesIO()
+    wb.save(raw)
+    stamp = "%04d-%02d-%02dT%02d:%02d:%02dZ" % FIXED_TIME
+    out = io.BytesIO()
+    with zipfile.ZipFile(raw) as src, zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as dst:
+        for info in src.infolist():
+            data = src.read(info.filename)
+            if info.filename == "docProps/core.xml":
+                data = re.sub(rb"(<dcterms:(created|modified)[^>]*>)[^<]*(</dcterms:)",
+                              lambda m: m.group(1) + stamp.encode() + m.group(3), data)
+            dst.writestr(zipfile.ZipInfo(info.filename, date_time=FIXED_TIME), data,
+                         compress_type=zipfile.ZIP_DEFLATED)
+    return out.getvalue()
+
+
 def _save(wb, path: Path, force: bool = True) -> Path:
-    buf = io.BytesIO()
-    wb.save(buf)
+    data = workbook_bytes(wb)
     with atomic_output(path, force=force) as tmp:
-        tmp.write_bytes(buf.getvalue())
+        tmp.write_bytes(data)
     return path
 
 
