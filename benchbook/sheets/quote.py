@@ -502,6 +502,10 @@ def fill_quote(wb, job: Any, record: Any, *, paper: str = "A4", terms: QuoteTerm
     if caption is not None and T.resolve_name(wb, "quote_arrangement_caption").cell is not None:
         T.write_text(T.named_cell(wb, "quote_arrangement_caption"), caption)
     _page_setup(wb, paper, values["quote_number"], job.site, values["quote_date"])
+    from openpyxl.workbook.properties import CalcProperties  # noqa: PLC0415
+
+    wb.calculation = wb.calculation or CalcProperties()
+    wb.calculation.fullCalcOnLoad = True  # openpyxl keeps no cached values: have the application recalculate
     return lines, totals
 
 
