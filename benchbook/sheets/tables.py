@@ -121,7 +121,10 @@ def resolve_name(wb, name: str) -> NameTarget:
         return NameTarget(name, text, None, "not-a-cell", f"a constant or formula, not a cell ({text})")
     if dn.is_external or "[" in text:
         return NameTarget(name, text, None, "external", f"a cell in another workbook ({text})")
-    dests = list(dn.destinations)
+    try:
+        dests = list(dn.destinations)
+    except Exception:  # openpyxl's tokenizer refuses odd reference text
+        return NameTarget(name, text, None, "not-a-cell", f"something that is not a cell ({text})")
     if len(dests) != 1:
         return NameTarget(name, text, None, "range", f"several areas ({text})")
     sheet, ref = dests[0]
