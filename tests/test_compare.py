@@ -188,7 +188,7 @@ def test_parallel_curve_never_falls_and_beats_simple_multiple(records):
     assert all(b >= n - 1e-9 for b, n in zip(bank, naive))
 
 
-@settings(max_examples=10, deadline=None)
+@settings(max_examples=4, deadline=None)
 @given(st.integers(1, 6))
 def test_summary_has_one_column_per_option(tmp_path_factory, records, k):
     out = write_comparison(make_job(), records[:k], tmp_path_factory.mktemp("c") / "c.xlsx", hourly=False)
