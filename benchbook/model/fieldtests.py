@@ -16,13 +16,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Optional, Sequence
+from typing import Optional
 
 import numpy as np
 
 from benchbook.errors import FieldProblem, ModelError, SpecError
 from benchbook.model.findings import Finding
-from benchbook.model.readings import SG_CONVENTIONS, parse_block_id, sg_corrected  # noqa: F401 - public here too
+from benchbook.model.readings import (SG_CONVENTIONS, FieldBank, block_ids_for,  # noqa: F401 - public here too
+                                      parse_block_id, sg_corrected)
 from benchbook.model.temperature import ieee485_factor, ieee485_factor_checked
 
 CAPACITY_METHODS = ("time-adjusted", "rate-adjusted")

@@ -1,0 +1,401 @@
+"""Read-back of filled field sheets, checks, checked copies, baselines, folder batches.
+
+The filled sheets are made by benchbook.sheets.fieldsamples (invented banks, seeded noise) and edited
+cell by cell with openpyxl, as a crew would. Expected values come from the simulation that filled
+them, from the IEEE 450 arithmetic (from memory, see test_fieldtests.py) or from the edit itself.
+"""
+
+import datetime as dt
+import hashlib
+import math
+import re
+import shutil
+import zipfile
+
+import numpy as np
+import openpyxl
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from benchbook.errors import FileFormatError, InputErrorGroup, TemplateError
+from benchbook.sheets import names as N
+from benchbook.sheets.checked import check_file, check_path
+from benchbook.sheets.fieldsamples import (demo_bank, fill_capacity_test, fill_readings, simulate_capacity_test,
+                                           simulate_readings)
+from benchbook.sheets.fieldsheet import write_field_sheet
+from benchbook.sheets.readback import (CapacityTestRecord, ReadingsRecord, parse_number, read_field_sheet,
+                                       read_with_notes)
+
+DATE = dt.date(2026, 3, 10)
+
+
+def sha(p):
+    return hashlib.sha256(p.read_bytes()).hexdigest()
+
+
+@pytest.fixture(scope="module")
+def work(tmp_path_factory):
+    """Blank and filled sheets of two invented banks: 4 × 12 V AGM blocks, and 24 × 2 V flooded cells."""
+    d = tmp_path_factory.mktemp("rb")
+    small = demo_bank("B-12", model="IL-12A-100", series=4, parallel=1, site="Pelican Point repeater")
+    flooded = demo_bank("DC-A", model="IL-2F-420", series=24, parallel=1)
+    out = {"dir": d, "small": small, "flooded": flooded}
+    write_field_sheet(small, "capacity-test", d / "blank-ct.xlsx")
+    write_field_sheet(small, "readings", d / "blank-rd12.xlsx")
+    write_field_sheet(flooded, "readings", d / "blank-rd.xlsx")
+    sim = simulate_capacity_test(small, health=0.92, weak={"S1-03": 0.80}, temp_c=20.0, seed=3)
+    out["sim"] = sim
+    fill_capacity_test(d / "blank-ct.xlsx", d / "ct.xlsx", sim, date=DATE, age_years=5.0)
+    rows = simulate_readings(flooded, age_years=5.0, seed=4, weak="S1-07")
+    out["rows"] = rows
+    fill_readings(d / "blank-rd.xlsx", d / "rd.xlsx", rows, date=DATE)
+    return out
+
+
+def edit(src, dst, changes, sheet_changes=None):
+    """Copy ``src`` to ``dst`` with cells changed: {("Sheet", "A1"): value}; a crew's edit with openpyxl."""
+    wb = openpyxl.load_workbook(src)
+    for (sheet, ref), v in changes.items():
+        wb[sheet][ref].value = v
+    if sheet_changes:
+        sheet_changes(wb)
+    wb.save(dst)
+    return dst
+
+
+def cell_of(path, name):
+    wb = openpyxl.load_workbook(path)
+    sheet, ref = next(iter(wb.defined_names[name].destinations))
+    return sheet, ref.replace("$", "")
+
+
+def inject_cached_formula(src, dst, sheet_part, ref, formula):
+    """Give cell ``ref`` a formula that keeps its stored value, editing the worksheet XML directly."""
+    with zipfile.ZipFile(src) as zin, zipfile.ZipFile(dst, "w", zipfile.ZIP_DEFLATED) as zout:
+        for item in zin.infolist():
+            data = zin.read(item.filename)
+            if item.filename == sheet_part:
+                text = data.decode()
+                text, n = re.subn(rf'(<c r="{ref}"[^>]*>)(<v>)', rf"\1<f>{formula}</f>\2", text, count=1)
+                assert n == 1
+                data = text.encode()
+            zout.writestr(item, data)
+    return dst
+
+
+# ---- clean sheets ------------------------------------------------------------------------------
+def test_capacity_sheet_reads_back_exactly(work):
+    rec = read_field_sheet(work["dir"] / "ct.xlsx")
+    sim = work["sim"]
+    assert isinstance(rec, CapacityTestRecord) and rec.kind == "capacity-test"
+    t = rec.test
+    # values are those the simulation wrote (rounded as written)
+    np.testing.assert_allclose(t.elapsed_min, np.round(sim.elapsed_min, 1))
+    np.testing.assert_allclose(t.block_voltage_v, sim.block_voltage_v)
+    np.testing.assert_allclose(t.bank_voltage_v, sim.bank_voltage_v)
+    assert t.block_ids == ("S1-01", "S1-02", "S1-03", "S1-04")
+    assert t.rated_minutes == 180.0 and t.end_minute == round(sim.end_minute, 1)
+    assert t.test_current_a == pytest.approx(78.0 / 3.0)  # IL-12A-100 3 h rating 78 Ah (invented catalog)
+    assert rec.bank.series == 4 and rec.bank.cells_per_block == 6 and rec.date == DATE
+    assert rec.ratings[0] == (1.0, 62.0) and len(rec.ratings) == 7
+    assert [n for n in rec.notes if n.severity != "info"] == []
+    # cells are remembered: the end minute's cell, and a log cell by row index
+    sheet, ref = cell_of(work["dir"] / "ct.xlsx", "test_end_minute")
+    assert rec.cells.at("end_minute") == f"{sheet}!{ref}"
+    assert rec.cells.at("block_voltage_v", "S1-03") == "Log!F4"  # a block's finding points at its column
+    assert rec.cells.at("elapsed_min", "", 2) == "Log!A7"  # the 3rd log row is sheet row 7
+
+
+def test_check_capacity_test_and_json(work):
+    rep = check_file(work["dir"] / "ct.xlsx")
+    # IEEE 450 time-adjusted: t/t_rated × K(20 °C) × 100; K(68 °F) = 1.08 - (1.08 - 1.04) × 3/5 = 1.056
+    # (IEEE 485 Table 1 from memory, linear on °F)
+    k = 1.08 - (1.08 - 1.04) * 3 / 5
+    assert rep.capacity_percent == pytest.approx(rep.record.test.end_minute / 180 * k * 100)
+    d = rep.to_dict()
+    assert d["kind"] == "capacity-test" and d["capacity_percent"] == round(rep.capacity_percent, 2)
+    assert d["status"] in ("pass", "attention", "fail") and d["temperature_factor"] == pytest.approx(k, abs=1e-4)
+    assert all(set(f) >= {"cell", "severity", "message"} for f in d["findings"])
+    weak = next(f for f in rep.findings if f.code == "first-block-at-end-voltage")
+    assert weak.cell == "Log!F4" and "S1-03" in weak.message  # the weak block's column header
+    assert d["model"]["health"] < 1 and d["cautions"][0]["topic"] == "hydrogen"
+    assert '"capacity_percent"' in rep.to_json()
+
+
+def test_readings_read_back_and_equalize(work):
+    rec = read_field_sheet(work["dir"] / "rd.xlsx")
+    assert isinstance(rec, ReadingsRecord) and len(rec.blocks) == 24 and rec.ohmic_kind == "resistance"
+    rows = work["rows"]
+    assert [b.float_voltage_v for b in rec.blocks] == [r["Float voltage [V]"] for r in rows]
+    assert [b.specific_gravity for b in rec.blocks] == [r["Specific gravity [-]"] for r in rows]
+    assert rec.on_float is True and rec.water_added is False and rec.sg_convention == "ieee"
+    rep = check_file(work["dir"] / "rd.xlsx")
+    eq = [f for f in rep.findings if f.code == "equalize-low-float"]
+    assert [f.cell for f in eq] == ["Readings!B11"]  # S1-07 is the 7th block row (row 5 + 6)
+    assert rep.extra["equalize"] == ["S1-07"] and rep.extra["sg_convention"] == "ieee"
+    assert rep.status == "attention" and rep.exit_code == 0
+
+
+# ---- nothing lost ------------------------------------------------------------------------------
+def test_input_unchanged_and_checked_copy_keeps_every_value(work, tmp_path):
+    src = edit(work["dir"] / "ct.xlsx", tmp_path / "in.xlsx", {("Log", "D8"): "13,1"})
+    before = sha(src)
+    out = tmp_path / "in.checked.xlsx"
+    rep = check_file(src, out=out)
+    assert sha(src) == before  # the input file is never modified
+    a, b = openpyxl.load_workbook(src), openpyxl.load_workbook(out)
+    assert b.sheetnames[: len(a.sheetnames)] == a.sheetnames and "Findings" in b.sheetnames
+    for ws in a.worksheets:
+        for row in ws.iter_rows():
+            for c in row:
+                assert b[ws.title][c.coordinate].value == c.value, (ws.title, c.coordinate)
+    flagged = next(f for f in rep.findings if f.severity == "warning" and f.cell.startswith("Log!"))
+    cell = b[flagged.cell.split("!")[0]][flagged.cell.split("!")[1]]
+    assert cell.fill.fgColor.rgb.endswith("FCE4B0") and "benchbook warning" in cell.comment.text
+    texts = [c.value for row in b["Findings"].iter_rows() for c in row if isinstance(c.value, str)]
+    assert flagged.cell in texts and any("NFPA 70E" in t for t in texts)
+    with pytest.raises(FileFormatError, match="already exists"):
+        check_file(src, out=out)
+    with pytest.raises(FileFormatError, match="input file"):
+        check_file(src, out=src, force=True)
+
+
+# ---- what crews type ---------------------------------------------------------------------------
+def test_parse_number_rules():
+    assert parse_number("2.15 V", "V") == ([(2.15, "unit 'V' removed")], "")
+    assert parse_number("2,15", "V")[0][0][0] == 2.15
+    assert [v for v, _ in parse_number("1,265", "-")[0]] == [1.265, 1265.0]  # ambiguous: both readings
+    assert parse_number("77 °F", "°C")[0][0][0] == pytest.approx(25.0)  # (77 - 32) × 5/9
+    assert parse_number("2.15 A", "V")[0] == [] and "unit other than V" in parse_number("2.15 A", "V")[1]
+    assert parse_number(True, "V")[0] == [] and parse_number(dt.time(1, 30), "min")[1].endswith("1:30)")
+
+
+def test_comma_ambiguity_is_judged_by_the_column(work, tmp_path):
+    p = edit(work["dir"] / "ct.xlsx", tmp_path / "c.xlsx", {("Log", "D6"): "13,150", ("Log", "A7"): "1,200"})
+    res = read_with_notes(p)
+    # 13,150 V: only 13.150 is a block voltage (13150 is not) -> accepted; 1,200 min: both readings fit -> refused
+    assert [e.where for e in res.errors] == ["Log!A7"] and "decimal point" in res.errors[0].expected
+    assert any(n.cell == "Log!D6" and "13.15" in n.message for n in res.notes)
+    p2 = edit(work["dir"] / "rd.xlsx", tmp_path / "sg.xlsx", {("Readings", "C5"): "1,265", ("Readings", "C6"): 1262})
+    rec = read_field_sheet(p2)
+    assert rec.blocks[0].specific_gravity == 1.265  # both readings of the comma agree (1265 points = 1.265)
+    assert rec.blocks[1].specific_gravity == 1.262  # SG typed as points
+
+
+def test_string_totals_and_per_cell_values_are_refused(work, tmp_path):
+    d = work["dir"]
+    fill_readings(d / "blank-rd12.xlsx", tmp_path / "r12.xlsx", simulate_readings(work["small"], seed=1), date=DATE)
+    # 4 × 12 V blocks floating at 13.6 V: 54.4 is the string total; 2.27 a per-cell value
+    p = edit(tmp_path / "r12.xlsx", tmp_path / "bad.xlsx", {("Readings", "B5"): 54.4, ("Readings", "B6"): 2.27})
+    with pytest.raises(InputErrorGroup) as ei:
+        read_field_sheet(p)
+    msgs = {e.where: e.message for e in ei.value}
+    assert "string total" in msgs["Readings!B5"] and "13.60 V" in msgs["Readings!B5"]
+    assert "per-cell value" in msgs["Readings!B6"] and "13.62 V" in msgs["Readings!B6"]
+
+
+def test_fahrenheit_header_and_column(work, tmp_path):
+    sheet, ref = cell_of(work["dir"] / "ct.xlsx", "test_start_temp_c")
+    wb = openpyxl.load_workbook(work["dir"] / "ct.xlsx")
+    pilot = [c.column_letter for c in wb["Log"][4] if c.value == "Pilot temperature [°C]"][0]
+    n = len(work["sim"].elapsed_min)
+    changes = {(sheet, ref): 68.0}
+    changes.update({("Log", f"{pilot}{5 + i}"): round(float(work["sim"].pilot_temp_c[i]) * 9 / 5 + 32, 1)
+                    for i in range(n)})
+    res = read_with_notes(edit(work["dir"] / "ct.xlsx", tmp_path / "f.xlsx", changes))
+    assert res.errors == ()
+    assert res.record.test.start_temp_c == pytest.approx(20.0)  # 68 °F
+    np.testing.assert_allclose(res.record.test.pilot_temp_c, work["sim"].pilot_temp_c, atol=0.06)
+    codes = {n.code for n in res.notes if n.severity == "warning"}
+    assert {"normalized", "fahrenheit-column"} <= codes
+
+
+def test_elapsed_time_must_increase(work, tmp_path):
+    # a dip (row 7 says 5 between 10 and 30) is blamed on its own cell; a spike on the spike
+    res = read_with_notes(edit(work["dir"] / "ct.xlsx", tmp_path / "dip.xlsx", {("Log", "A7"): 5}))
+    assert [e.where for e in res.errors] == ["Log!A7"] and "increase" in res.errors[0].expected
+    res = read_with_notes(edit(work["dir"] / "ct.xlsx", tmp_path / "spike.xlsx", {("Log", "A6"): 1000}))
+    assert [e.where for e in res.errors] == ["Log!A6"]
+    # readings without an elapsed time name both cells
+    res = read_with_notes(edit(work["dir"] / "ct.xlsx", tmp_path / "noel.xlsx", {("Log", "A6"): None}))
+    assert res.errors[0].where == "Log!A6" and "Log!B6" in res.errors[0].message
+
+
+def test_block_columns_duplicate_unknown_missing_and_moved(work, tmp_path):
+    res = read_with_notes(edit(work["dir"] / "ct.xlsx", tmp_path / "dup.xlsx",
+                               {("Log", "E4"): "Block S1-01", ("Log", "F4"): "Block S9-01"}))
+    assert [e.where for e in res.errors] == ["Log!E4", "Log!F4"]
+    assert "already at Log!D4" in res.errors[0].expected
+
+    def swap(wb):  # move block S1-04 before S1-03 (header and values), add a crew column
+        ws = wb["Log"]
+        for r in range(4, ws.max_row + 1):
+            ws[f"F{r}"].value, ws[f"G{r}"].value = ws[f"G{r}"].value, ws[f"F{r}"].value
+        ws["K4"] = "Notes"
+        ws["K6"] = "fan started"
+    moved = read_field_sheet(edit(work["dir"] / "ct.xlsx", tmp_path / "mv.xlsx", {}, swap))
+    base = read_field_sheet(work["dir"] / "ct.xlsx")
+    order = [moved.test.block_ids.index(b) for b in base.test.block_ids]
+    np.testing.assert_array_equal(moved.test.block_voltage_v[:, order], base.test.block_voltage_v)
+    assert any(n.code == "column-ignored" and n.cell == "Log!K4" for n in moved.notes)
+
+    def drop(wb):
+        ws = wb["Log"]
+        for r in range(4, ws.max_row + 1):
+            ws[f"G{r}"].value = None
+    gone = read_with_notes(edit(work["dir"] / "ct.xlsx", tmp_path / "gone.xlsx", {}, drop))
+    assert gone.errors == () and any(n.code == "block-missing" and "S1-04" in n.message for n in gone.notes)
+    dup = read_with_notes(edit(work["dir"] / "rd.xlsx", tmp_path / "duprow.xlsx", {("Readings", "A6"): "S1-01"}))
+    assert [e.where for e in dup.errors] == ["Readings!A6"]
+
+
+def test_formulas_merges_and_blank_rows(work, tmp_path):
+    d = work["dir"]
+    # a formula with its stored value (as a spreadsheet application saves it): the value is used, the cell flagged
+    p = inject_cached_formula(d / "ct.xlsx", tmp_path / "f.xlsx", "xl/worksheets/sheet2.xml", "E6", "E5-0.05")
+    res = read_with_notes(p)
+    base = read_field_sheet(d / "ct.xlsx")
+    assert res.errors == ()
+    assert res.record.test.block_voltage_v[1, 1] == base.test.block_voltage_v[1, 1]  # the cached value
+    assert any(n.code == "formula-in-input" and n.cell == "Log!E6" and "stored value" in n.message
+               for n in res.notes)
+
+    def merge(wb):
+        wb["Log"].merge_cells("D7:E7")
+    res = read_with_notes(edit(d / "ct.xlsx", tmp_path / "m.xlsx", {}, merge))
+    assert any(n.code == "merged-input" and n.cell == "Log!D7" for n in res.notes)
+    assert math.isnan(res.record.test.block_voltage_v[2, 1])  # the covered cell counts as blank
+
+    def blank_row(wb):
+        wb["Log"].insert_rows(8)
+    res = read_with_notes(edit(d / "ct.xlsx", tmp_path / "b.xlsx", {}, blank_row))
+    assert res.errors == () and any(n.code == "blank-rows" and n.cell == "Log!A8" for n in res.notes)
+    assert res.record.test.elapsed_min.size == base.test.elapsed_min.size
+
+
+def test_every_problem_at_once(work, tmp_path):
+    sheet, end = cell_of(work["dir"] / "ct.xlsx", "test_end_minute")
+    _, date = cell_of(work["dir"] / "ct.xlsx", "test_date")
+    p = edit(work["dir"] / "ct.xlsx", tmp_path / "many.xlsx",
+             {(sheet, end): "soon", (sheet, date): "05/03/2026", ("Log", "D6"): "abc", ("Log", "H9"): 140})
+    with pytest.raises(InputErrorGroup) as ei:
+        read_field_sheet(p)
+    where = ei.value.cells
+    assert set(where) == {f"{sheet}!{end}", f"{sheet}!{date}", "Log!D6", "Log!H9"}
+    for e in ei.value:
+        assert re.match(r"^\w+!\w+\d+: .*found .*; expected .+", e.message)
+    # a check reports them as error findings and fails with exit code 2 (bad entries)
+    rep = check_file(p)
+    assert rep.status == "fail" and rep.exit_code == 2 and rep.capacity_percent is None
+
+
+def test_not_a_field_sheet(tmp_path, work):
+    csv = tmp_path / "log.xlsx"
+    csv.write_text("Elapsed,Volts\n0,50\n")
+    with pytest.raises(FileFormatError):
+        read_field_sheet(csv)
+    other = tmp_path / "other.xlsx"
+    wb = openpyxl.Workbook()
+    wb.active["A1"] = "hello"
+    wb.save(other)
+    with pytest.raises(TemplateError, match="not a benchbook field sheet"):
+        read_field_sheet(other)
+
+    def unname(wb):
+        del wb.defined_names["test_end_minute"]
+    with pytest.raises(TemplateError) as ei:
+        read_field_sheet(edit(work["dir"] / "ct.xlsx", tmp_path / "nn.xlsx", {}, unname))
+    assert any("test_end_minute" in p for p in ei.value.problems)
+
+
+# ---- baselines and folders ---------------------------------------------------------------------
+def test_baselines(work, tmp_path):
+    d = work["dir"]
+    earlier = simulate_capacity_test(work["small"], health=1.04, temp_c=25.0, seed=9)
+    fill_capacity_test(d / "blank-ct.xlsx", tmp_path / "2024.xlsx", earlier, date=dt.date(2024, 3, 1))
+    rep = check_file(d / "ct.xlsx", baseline=tmp_path / "2024.xlsx")
+    base_pct = check_file(tmp_path / "2024.xlsx").capacity_percent
+    assert rep.extra["baseline_percent"] == pytest.approx(base_pct, abs=0.01)
+    drop = base_pct - rep.capacity_percent
+    assert drop > 10 and any(f.code == "capacity-drop" for f in rep.findings)  # IEEE 450, > 10 % drop (from memory)
+    # readings: a 30 % ohmic rise on S1-02 against the earlier set (20 % threshold, common practice, no source)
+    rows = [dict(r) for r in work["rows"]]
+    rows[1]["Internal resistance [mΩ]"] = round(rows[1]["Internal resistance [mΩ]"] * 1.3, 3)
+    fill_readings(d / "blank-rd.xlsx", tmp_path / "rd-now.xlsx", rows, date=dt.date(2027, 3, 1))
+    rep = check_file(tmp_path / "rd-now.xlsx", baseline=d / "rd.xlsx")
+    assert [f.cell for f in rep.findings if f.code == "ohmic-rise"] == ["Readings!F6"]
+    other = check_file(d / "ct.xlsx", baseline=d / "rd.xlsx")
+    assert any(f.code == "baseline-other-kind" for f in other.findings)
+
+
+def test_folder_batch_with_trend_and_a_broken_file(work, tmp_path):
+    d, folder = work["dir"], tmp_path / "bank"
+    folder.mkdir()
+    for k, (year, h) in enumerate(((2024, 1.02), (2025, 0.97), (2026, 0.93))):
+        sim = simulate_capacity_test(work["small"], health=h, temp_c=24.0, seed=20 + k)
+        fill_capacity_test(d / "blank-ct.xlsx", folder / f"t{year}.xlsx", sim, date=dt.date(year, 2, 1))
+    (folder / "broken.xlsx").write_bytes(b"PK\x03\x04 not really a zip")
+    shutil.copy(d / "rd.xlsx", folder / "other-bank.xlsx")
+    rep = check_path(folder, workers=2, progress=False)
+    by = {s.source: s for s in rep.sheets}
+    assert by["broken.xlsx"].kind == "unreadable" and by["broken.xlsx"].exit_code == 2
+    assert [by[f"t{y}.xlsx"].date for y in (2024, 2025, 2026)] == ["2024-02-01", "2025-02-01", "2026-02-01"]
+    assert rep.exit_code == 2  # one file could not be read; the others were all checked
+    out = folder / "checked"
+    assert sorted(p.name for p in out.iterdir()) == ["fleet-summary.xlsx", "other-bank.checked.xlsx",
+                                                     "t2024.checked.xlsx", "t2025.checked.xlsx", "t2026.checked.xlsx"]
+    latest = openpyxl.load_workbook(out / "t2026.checked.xlsx")
+    assert "Trend" in latest.sheetnames and len(latest["Trend"]._charts) == 1  # capacity chart (no ohmic data)
+    caps = [latest["Trend"].cell(r, 4).value for r in (4, 5, 6)]
+    assert caps == [pytest.approx(by[f"t{y}.xlsx"].capacity_percent, abs=1e-4) for y in (2024, 2025, 2026)]
+    banks = openpyxl.load_workbook(out / "fleet-summary.xlsx")["Banks"]
+    rows = [[c.value for c in r] for r in banks.iter_rows(min_row=4, max_row=5)]
+    assert {r[1] for r in rows} == {"B-12", "DC-A"} and all(r[3] in ("pass", "attention", "fail") for r in rows)
+    with pytest.raises(FileFormatError, match="already exists"):
+        check_path(folder, workers=1, progress=False)
+    assert '"sheets"' in rep.to_json()
+
+
+# ---- any value in any input cell ---------------------------------------------------------------
+def _input_cells(path, kind):
+    wb = openpyxl.load_workbook(path)
+    cells = []
+    for spec in N.contract(kind).names:
+        if spec.group.startswith("Bank") or spec.name == "test_rated_current_a":
+            continue
+        sheet, ref = next(iter(wb.defined_names[spec.name].destinations))
+        cells.append((sheet, ref.replace("$", "")))
+    if kind == "capacity-test":
+        cells += [("Log", f"{c}{r}") for c in "ABCDEFGH" for r in (5, 6, 12, 30)]
+    else:
+        cells += [("Readings", f"{c}{r}") for c in "BCDEFGHI" for r in (5, 9)]
+    return cells
+
+
+VALUES = st.one_of(st.none(), st.booleans(), st.integers(-10**7, 10**7),
+                   st.floats(allow_nan=False, allow_infinity=False, width=32),
+                   st.text(st.characters(blacklist_categories=("Cc", "Cs")), max_size=10),  # what openpyxl can store
+                   st.dates(dt.date(1900, 1, 1), dt.date(2200, 1, 1)),
+                   st.sampled_from(["2,15", "1,265", "12 V", "77 °F", "=1+2", "#DIV/0!", "S1-02", "yes", "1e400",
+                                    " ", "13,6 V", "-0", "1.2.3"]))
+
+
+@pytest.mark.parametrize("which", ["ct.xlsx", "rd.xlsx"])
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(data=st.data())
+def test_any_value_in_any_input_cell(work, tmp_path, which, data):
+    src = work["dir"] / which
+    kind = "capacity-test" if which == "ct.xlsx" else "readings"
+    sheet, ref = data.draw(st.sampled_from(_input_cells(src, kind)))
+    value = data.draw(VALUES)
+    p = edit(src, tmp_path / f"h-{which}", {(sheet, ref): value})
+    res = read_with_notes(p)  # no other exception may escape
+    where = f"{sheet}!{ref}"
+    if res.errors:
+        assert any(e.where == where or where in e.message for e in res.errors), (where, value, res.errors)
+        assert res.record is None
+    else:
+        assert res.record is not None
+        rep = check_file(p)  # the model checks accept every record the read-back accepts
+        assert rep.status in ("pass", "attention", "fail")
