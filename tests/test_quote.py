@@ -367,6 +367,12 @@ def test_restyled_and_moved_template_is_filled_by_name(tmp_path, options):
     assert _cell(wb, "quote_grand_total").value.startswith("=")
     cautions_first = _cell(wb, "quote_cautions_first")
     assert cautions_first.value == "Hydrogen and ventilation"
+    # the totals' formulas point at the moved cells: the `formulas` package (an Excel formula engine) agrees
+    formulas = pytest.importorskip("formulas")
+    sol = formulas.ExcelModel().loads(str(res.path)).finish().calculate()
+    gt = _cell(wb, "quote_grand_total").coordinate
+    got = next(v for k, v in sol.items() if k.upper().endswith(f"ANGEBOT'!{gt}"))
+    assert float(got.value[0][0]) == pytest.approx(res.totals.grand_total, rel=1e-12)
 
 
 def test_standby_quote_from_the_real_pipeline(tmp_path):
