@@ -49,6 +49,40 @@ def build_parser() -> argparse.ArgumentParser:
                    help="ranking: cost per delivered kWh (cyclic) or cost of readiness per year (standby); "
                         "unserved energy; price; weight (default cost)")
     p.set_defaults(handler=_cmd_size)
+
+    p = sub.add_parser("quote", help="fill the quote template for one option",
+                       description="Evaluate the job and fill a quote workbook for the option of the given rank.")
+    p.add_argument("job", help="filled-in job workbook (.xlsx)")
+    p.add_argument("--option", type=int, default=1, help="rank of the option to quote, as `size` lists it (default 1)")
+    p.add_argument("--template", help="the firm's own quote template (default: the shipped one)")
+    p.add_argument("--catalog", help="battery catalog workbook or CSV (default: the job's Batteries table)")
+    p.add_argument("-o", "--output", required=True, help="quote workbook to write (.xlsx)")
+    p.add_argument("--pdf", action="store_true", help="also print a PDF beside it (needs LibreOffice)")
+    p.add_argument("--paper", choices=("A4", "Letter"), default="A4", help="paper size (default A4)")
+    _add_force(p)
+    p.set_defaults(handler=_cmd_quote)
+
+    p = sub.add_parser("compare", help="write the side-by-side comparison workbook",
+                       description="Evaluate the job and write a comparison workbook: options as columns, "
+                                   "native charts, and one sheet per option with its hourly year.")
+    p.add_argument("job", help="filled-in job workbook (.xlsx)")
+    p.add_argument("-o", "--output", required=True, help="comparison workbook to write (.xlsx)")
+    group = p.add_mutually_exclusive_group()
+    group.add_argument("--options", help="ranks to compare, comma-separated, e.g. 1,2,5")
+    group.add_argument("--top", type=int, help="compare the first N options")
+    p.add_argument("--catalog", help="battery catalog workbook or CSV (default: the job's Batteries table)")
+    p.add_argument("--no-hourly", action="store_true", help="leave out the hourly sheets")
+    _add_force(p)
+    p.set_defaults(handler=_cmd_compare)
+
+    p = sub.add_parser("template-check", help="check a template against the template contract",
+                       description="List every missing or malformed defined name and table header of a "
+                                   "template. Exit 0 when it is usable.")
+    p.add_argument("template", help="template workbook (.xlsx)")
+    p.add_argument("--kind", choices=("intake", "quote", "capacity-test", "readings"),
+                   help="which contract (default: guessed from the names the workbook holds)")
+    p.add_argument("--strict", action="store_true", help="also report missing optional names and headers")
+    p.set_defaults(handler=_cmd_template_check)
     return parser
 
 
@@ -65,6 +99,47 @@ def _cmd_size(args: argparse.Namespace) -> int:
 
     print(size_report(args.job, catalog=args.catalog, as_json=args.json, top=args.top, rank_by=args.rank_by))
     return 0
+
+
+def _ranks(text: str | None) -> list[int] | None:
+    if text is None:
+        return None
+    from benchbook.errors import InputError
+
+    try:
+        return [int(t) for t in text.split(",") if t.strip()]
+    except ValueError:
+        raise InputError("--options", "", text, "option ranks separated by commas, e.g. 1,2,5") from None
+
+
+def _cmd_quote(args: argparse.Namespace) -> int:
+    from benchbook.sheets.report import quote_job
+
+    res = quote_job(args.job, args.option, args.output, template=args.template, catalog=args.catalog,
+                    pdf=args.pdf, paper=args.paper, force=args.force)
+    print(f"wrote {res.path} (grand total {res.totals.grand_total:,.2f})")
+    if res.pdf_path:
+        print(f"wrote {res.pdf_path}")
+    for note in res.notes:
+        print(note)
+    return 0
+
+
+def _cmd_compare(args: argparse.Namespace) -> int:
+    from benchbook.sheets.report import compare_job
+
+    path = compare_job(args.job, args.output, options=_ranks(args.options), top=args.top, catalog=args.catalog,
+                       force=args.force, hourly=not args.no_hourly)
+    print(f"wrote {path}")
+    return 0
+
+
+def _cmd_template_check(args: argparse.Namespace) -> int:
+    from benchbook.sheets.templatecheck import template_check
+
+    ok, text = template_check(args.template, kind=args.kind, strict=args.strict)
+    print(text)
+    return 0 if ok else 2
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -80,3 +80,31 @@ def test_internal_error_exits_1_without_traceback(monkeypatch, capsys):
     err = capsys.readouterr().err
     assert err.startswith("Error: internal error (ZeroDivisionError")
     assert "Traceback" not in err
+
+
+def test_template_check_accepts_the_shipped_templates():
+    from benchbook.sheets.names import template_path
+
+    for kind in ("intake", "quote"):
+        r = run("template-check", str(template_path(kind)), "--kind", kind)
+        assert r.returncode == 0, r.stdout + r.stderr
+        assert f"usable as an {kind}" in r.stdout or f"usable as a {kind}" in r.stdout
+
+
+def test_template_check_lists_every_missing_name(tmp_path):
+    import hashlib
+
+    import openpyxl
+
+    from benchbook.sheets.names import template_path
+
+    wb = openpyxl.load_workbook(template_path("quote"))
+    for name in ("quote_grand_total", "quote_site"):
+        del wb.defined_names[name]
+    broken = tmp_path / "firm-quote.xlsx"
+    wb.save(broken)
+    before = hashlib.sha256(broken.read_bytes()).hexdigest()
+    r = run("template-check", str(broken), "--kind", "quote")
+    assert r.returncode == 2
+    assert "defined name quote_grand_total" in r.stdout and "defined name quote_site" in r.stdout
+    assert hashlib.sha256(broken.read_bytes()).hexdigest() == before

@@ -122,3 +122,37 @@ def size_report(job_path: str | Path, catalog: Optional[str | Path] = None, as_j
     if as_json:
         return json.dumps([option_record(e) for e in evaluated[:top]], indent=2, ensure_ascii=False)
     return format_options(job, evaluated, top)
+
+
+def pick_option(evaluated: Sequence[EvaluatedOption], rank: int) -> EvaluatedOption:
+    """The option of a given 1-based rank, or an InputError naming ``--option``."""
+    from benchbook.errors import InputError
+
+    for e in evaluated:
+        if e.rank == rank:
+            return e
+    raise InputError("--option", "", rank, f"an option rank from 1 to {len(evaluated)} (see benchbook size)")
+
+
+def quote_job(job_path: str | Path, option: int, out: str | Path, *, template: Optional[str | Path] = None,
+              catalog: Optional[str | Path] = None, pdf: bool = False, paper: str = "A4", force: bool = False):
+    """``benchbook quote``: evaluate the job and fill the quote template for option ``option``."""
+    from benchbook.sheets.quote import write_quote
+
+    job, evaluated = evaluate_job(job_path, catalog)
+    return write_quote(job, pick_option(evaluated, option), out, template=template, force=force, pdf=pdf,
+                       paper=paper)
+
+
+def compare_job(job_path: str | Path, out: str | Path, *, options: Optional[Sequence[int]] = None,
+                top: Optional[int] = None, catalog: Optional[str | Path] = None, force: bool = False,
+                hourly: bool = True) -> Path:
+    """``benchbook compare``: evaluate the job and write the side-by-side comparison workbook."""
+    from benchbook.model.evaluate import standby_profile
+    from benchbook.model.profiles import job_profile
+    from benchbook.sheets.compare import select_records, write_comparison
+
+    job, evaluated = evaluate_job(job_path, catalog)
+    chosen = select_records(evaluated, options=options, top=top)
+    profile = standby_profile(job) if job.application == "standby" else job_profile(job)
+    return write_comparison(job, chosen, out, force=force, hourly=hourly, profile=profile)
