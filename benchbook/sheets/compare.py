@@ -551,6 +551,11 @@ def _write_hourly(wb, f: dict, records: list, profile: Any) -> None:
             ws.write_string(1, c, h, f["bold"])
         ws.freeze_panes(2, 0)
         steps = len(soc)
+        # Printing 8,760 rows helps nobody: print the first week, keep the whole year on screen.
+        ws.print_area(0, 0, 1 + min(steps, 7 * 24), len(cols) - 1)
+        ws.repeat_rows(1)
+        ws.fit_to_pages(1, 0)
+        ws.set_footer("&LFull year on screen; first week printed&RPage &P of &N")
         months = (month_of if steps == len(month_of) else np.ones(steps, dtype=int)).tolist()
         pct = f["pct"]
         wn = ws.write_number
