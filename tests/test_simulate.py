@@ -156,7 +156,8 @@ def test_low_voltage_disconnect_and_rate_table():
     assert served[0] and not served[-1]
     assert v[served].min() >= 6 * 1.75 - 1e-9  # one 12 V block = 6 cells
     first_off = np.argmin(served)
-    assert not served[first_off:].any() or served[first_off:].sum() < 10  # disconnected (recovery may reconnect briefly)
+    # disconnected from then on, apart from brief reconnections as the available charge recovers
+    assert served[first_off:].sum() < 10
     ah = res.charge_out_ah[0]
     assert 0.8 * c10 <= ah <= 1.02 * c10
     assert res.unserved_hours[0] > 0
