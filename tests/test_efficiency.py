@@ -117,6 +117,13 @@ def test_round_trip_from_a_simulation_accounts_stored_energy():
     assert np.allclose(rte, 1 - res.losses_kwh / gross, rtol=1e-9)
     assert np.all((rte > 0.6) & (rte < 1.0))
     assert np.any(res.delta_stored_kwh > 0)  # starting at 60 % the store grows: counted as delivered
+    # the other convention takes ΔW off the input (the same where the store shrinks); it is the stricter one
+    net = round_trip_efficiency(res, convention="net_input")
+    assert np.allclose(net, res.energy_out_kwh / (res.energy_in_kwh - res.delta_stored_kwh), rtol=1e-12)
+    grew = res.delta_stored_kwh > 0
+    assert np.all(net[grew] < rte[grew]) and np.allclose(net[~grew], rte[~grew], rtol=1e-12)
+    with pytest.raises(ModelError, match="convention"):
+        round_trip_efficiency(res, convention="gross")
     idle = simulate([(spec, 1, 1)], Profile([0.0], [0.0], 25.0, 1.0), 1.85)
     assert round_trip_efficiency(idle)[0] == 0.0  # self-discharge only: nothing out, the W drawn counts as input
 

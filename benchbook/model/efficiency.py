@@ -38,19 +38,32 @@ from benchbook.model.voltage import (copetti_charge_efficiency, copetti_charge_v
                                      copetti_discharge_voltage, rate_term_scale)
 
 
-def round_trip_efficiency(result) -> np.ndarray:
+#: Conventions for the change in stored energy in :func:`round_trip_efficiency`.
+RTE_CONVENTIONS = ("symmetric", "net_input")
+
+
+def round_trip_efficiency(result, convention: str = "symmetric") -> np.ndarray:
     """Round-trip energy efficiency of each simulated option, stored-energy change accounted. [-]
 
-    ``η_RT = (E_out + max(ΔW, 0)) / (E_in + max(−ΔW, 0))``: energy left in
-    the bank at the end counts as delivered, energy drawn from the starting
-    store counts as put in. By the energy balance this is
-    ``1 − losses / (E_in + max(−ΔW, 0))``. Options with no energy in or out
-    give NaN.
+    Sources differ on how a period that does not end at its starting state of
+    charge is counted, so the convention is a parameter:
+
+    - ``"symmetric"`` (default): ``(E_out + max(ΔW, 0)) / (E_in + max(−ΔW, 0))``.
+      Energy left in the bank at the end counts as delivered, energy drawn from
+      the starting store counts as put in; by the energy balance this is
+      ``1 − losses / (E_in + max(−ΔW, 0))``.
+    - ``"net_input"``: ``E_out / (E_in − ΔW)``. The change in stored energy is
+      taken off the energy put in; a period that ends fuller is not credited
+      with energy it has not yet returned.
+
+    The two agree when ``ΔW ≤ 0``. Options with no energy in give NaN.
 
     Parameters
     ----------
     result : SimResult
         A simulation result.
+    convention : str
+        ``"symmetric"`` or ``"net_input"``.
 
     Returns
     -------
@@ -60,11 +73,18 @@ def round_trip_efficiency(result) -> np.ndarray:
     References
     ----------
     Round-trip efficiency as energy out ÷ energy in over a cycle returning to
-    the same state: common practice, no source.
+    the same state: common practice, no source. Both treatments of ΔW are
+    common practice, no source.
     """
+    if convention not in RTE_CONVENTIONS:
+        raise ModelError(f"round-trip convention {convention!r}: expected one of {', '.join(RTE_CONVENTIONS)}")
     dw = np.asarray(result.delta_stored_kwh, dtype=float)
-    num = np.asarray(result.energy_out_kwh, dtype=float) + np.maximum(dw, 0.0)
-    den = np.asarray(result.energy_in_kwh, dtype=float) + np.maximum(-dw, 0.0)
+    e_out = np.asarray(result.energy_out_kwh, dtype=float)
+    e_in = np.asarray(result.energy_in_kwh, dtype=float)
+    if convention == "symmetric":
+        num, den = e_out + np.maximum(dw, 0.0), e_in + np.maximum(-dw, 0.0)
+    else:
+        num, den = e_out, e_in - dw
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(den > 0, num / np.where(den > 0, den, 1.0), np.nan)
 

@@ -22,7 +22,8 @@ equal strings of ``cells`` cells):
    job's end voltage (**low-voltage disconnect**) and the KiBaM available
    charge can supply it (:meth:`Kibam.max_current_a`, with the cold-capacity
    floor below). Otherwise the whole load is disconnected for the step
-   (unserved) and the sources, if any, charge the bank.
+   (unserved) and the sources, if any, charge the bank. The disconnect is
+   judged afresh every step (no reconnect hysteresis).
 3. **Charge** when the sources exceed the load. The current is the smallest
    of: the power-limited current (``V_c(I) · I = p``, Copetti charge voltage
    ``V_c = V0 + R_c I``); the **absorption taper** ``(V_abs − V0) / R_c``
@@ -30,7 +31,9 @@ equal strings of ``cells`` cells):
    the battery's maximum charge current and the charger current limit. Of
    that current the share ``η`` (Copetti charge efficiency at that current) is
    stored; the KiBaM charge acceptance (available tank full) caps the stored
-   current. Surplus source power is curtailed.
+   current. Surplus source power is curtailed. The charger holds the
+   absorption voltage whenever it has surplus power: there is no separate
+   float stage.
 4. **KiBaM** closed-form step (Manwell & McGowan 1993) with the stored current.
 5. **Self-discharge**: both tanks lose ``σ dt`` of their charge, ``σ`` from the
    datasheet's %/month at 25 °C (a month = 730 h), doubling per 10 °C above
@@ -55,7 +58,15 @@ change:
 so that ``E_in − E_out − losses − ΔW = 0`` holds exactly, up to rounding.
 
 State of charge is ``(q1 + q2) / q_max`` of the KiBaM fit; it is recorded at
-the start of each step. For life counting, every result keeps each day's
+the start of each step.
+
+Both the KiBaM (fitted to the rate table) and the Copetti discharge voltage
+carry a rate effect, and the disconnect applies whichever binds first. With
+the Copetti coefficients as recorded (from memory), the voltage usually binds
+first: at the 10-hour rate the catalog batteries deliver 87–92 % of their
+rated C10 to the rate table's end voltage, and less at higher rates. The
+simulation is therefore conservative about usable charge; sizing
+(:mod:`benchbook.model.sizing`) works from the rate table through its KiBaM fit. For life counting, every result keeps each day's
 lowest and highest state of charge in time order (:meth:`SimResult.soc_extremes`,
 a light stand-in for the full trace that loses cycles within a day); full
 hourly traces are kept only when asked (``keep_traces``).
@@ -177,7 +188,9 @@ class SimResult:
     ``daily_min_soc``/``daily_max_soc`` have shape ``(days, options)``;
     ``daily_min_first`` is True where the day's minimum came before its maximum.
     ``soc_hist_h`` has shape ``(options, bins)``: hours spent in each bin of
-    ``soc_bin_edges``. Traces (only with ``keep_traces``) have shape
+    ``soc_bin_edges``. ``curtailed_kwh`` is available charging power the bank
+    and the loads did not take (for a grid charger: unused charger capacity).
+    Traces (only with ``keep_traces``) have shape
     ``(steps, len(trace_options))``: state of charge at the start of each step,
     bank terminal voltage [V] and bank current [A] (> 0 discharging) during it.
     """
