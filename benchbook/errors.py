@@ -26,7 +26,7 @@ def _show(value: Any) -> str:
     if isinstance(value, str):
         return f'"{value}"'
     if isinstance(value, float) and value.is_integer() and abs(value) < 1e15:
-        return repr(value)
+        return str(int(value))
     return repr(value)
 
 
