@@ -33,6 +33,14 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"benchbook {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
 
+    p = sub.add_parser("demo", help="run the whole job on an invented scenario",
+                       description="Size, compare and quote two invented jobs, issue field sheets, fill them "
+                                   "as an invented crew would and check them against the model.")
+    p.add_argument("outdir", help="empty folder for every output")
+    p.add_argument("--no-pdf", action="store_true", help="do not print the quotes to PDF")
+    _add_force(p)
+    p.set_defaults(handler=_cmd_demo)
+
     p = sub.add_parser("new", help="write a blank job workbook to fill in",
                        description="Write a blank job workbook (intake form with the embedded catalog).")
     p.add_argument("job", help="path of the job workbook to create (.xlsx)")
@@ -84,6 +92,14 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--strict", action="store_true", help="also report missing optional names and headers")
     p.set_defaults(handler=_cmd_template_check)
     return parser
+
+
+def _cmd_demo(args: argparse.Namespace) -> int:
+    from benchbook.sheets.demo import run_demo
+
+    res = run_demo(args.outdir, force=args.force, pdf=False if args.no_pdf else None)
+    print(res.summary())
+    return 0
 
 
 def _cmd_new(args: argparse.Namespace) -> int:

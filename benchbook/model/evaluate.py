@@ -26,7 +26,11 @@ class EvaluatedOption:
     option : BankOption
         The sized option (battery, series, parallel, capacities, flags).
     round_trip_efficiency : float
-        Energy out ÷ energy in over the simulated year, Δstored accounted. [-]
+        Round-trip energy efficiency at the job's real rates: for cyclic jobs,
+        energy out ÷ (energy in − Δstored) over the simulated year; for
+        standby jobs, one standard cycle at the duty cycle's rate and depth
+        (:func:`standby_cycle`), because a floating bank's year is mostly
+        float charge, not cycling. [-]
     energy_in_kwh, energy_out_kwh : float
         Energy into and out of the bank over the year. [kWh]
     unserved_kwh : float
@@ -57,6 +61,11 @@ class EvaluatedOption:
         Levelized cost per delivered kWh. [currency/kWh]
     cost_of_readiness_per_year : float, optional
         Standby jobs: annualised cost of keeping the bank ready. [currency/year]
+    year_round_trip_efficiency : float
+        Energy out ÷ (energy in − Δstored) over the simulated year, float and
+        self-discharge losses included. [-]
+    standard_cycle : CycleEfficiency, optional
+        Standby jobs: the standard cycle behind ``round_trip_efficiency``.
     soc_trace, voltage_trace : numpy.ndarray, optional
         Hourly state of charge [-] and bank terminal voltage [V], kept for the
         options that are shown in detail.
@@ -86,6 +95,8 @@ class EvaluatedOption:
     lcos: Any
     cost_per_kwh: float
     cost_of_readiness_per_year: Optional[float] = None
+    year_round_trip_efficiency: float = float("nan")
+    standard_cycle: Any = None
     soc_trace: Optional[np.ndarray] = field(default=None, repr=False, compare=False)
     voltage_trace: Optional[np.ndarray] = field(default=None, repr=False, compare=False)
     monthly: Optional[dict] = field(default=None, repr=False, compare=False)
@@ -147,18 +158,6 @@ def standby_profile(job, outages_per_year: int = STANDBY_OUTAGES_PER_YEAR):
     return Profile(load, charge, temp, 1.0, source=f"standby: {outages_per_year} duty-cycle outages")
 
 
-def round_trip_efficiency(energy_in_kwh, energy_out_kwh, delta_stored_kwh):
-    """Round-trip energy efficiency over a period: ``E_out / (E_in − ΔW)``. [-]
-
-    The change in stored energy ``ΔW`` is taken off the energy put in, so a
-    year that ends less full than it began is not credited with energy it did
-    not return (common practice, no source).
-    """
-    e_in = np.asarray(energy_in_kwh, dtype=float) - np.asarray(delta_stored_kwh, dtype=float)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(e_in > 0, np.asarray(energy_out_kwh, dtype=float) / e_in, np.nan)
-
-
 def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
                      keep_traces: bool = True) -> list[EvaluatedOption]:
     """Size, simulate, age and cost every bank option of a job, then rank them.
@@ -196,6 +195,7 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
     from benchbook.model.options import enumerate_options
     from benchbook.model.profiles import job_profile
     from benchbook.model.safety import gas_current_ma_per_ah
+    from benchbook.model.efficiency import round_trip_efficiency
     from benchbook.model.simulate import simulate
 
     if rank_by not in RANK_KEYS:
@@ -208,7 +208,7 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
     sim = simulate(opts, profile, job.end_voltage_per_cell_v, generator=job.generator,
                    keep_traces=keep_traces)
     eco = job.economics
-    rte = round_trip_efficiency(sim.energy_in_kwh, sim.energy_out_kwh, sim.delta_stored_kwh)
+    year_rte = round_trip_efficiency(sim, "net_input")
     out = []
     for i, o in enumerate(opts):
         spec = o.spec
@@ -218,7 +218,9 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
         repl_years = tuple(life.replacements(eco.horizon_years))
         capex = bank_capex(o.blocks, spec.unit_price, eco.install_cost)
         repl_cost = replacement_cost(o.blocks, spec.unit_price, eco.replacement_labour_per_block)
-        eta = float(rte[i]) if np.isfinite(rte[i]) else 0.8
+        cycle = standby_cycle(job, o) if job.application == "standby" else None
+        rte = cycle.energy if cycle is not None else float(year_rte[i])
+        eta = rte if np.isfinite(rte) else 0.8
         delivered = float(sim.energy_out_kwh[i])
         cost = lcos(capex=capex, om_per_year=eco.om_per_year, discount_rate=eco.discount_rate,
                     years=eco.horizon_years, delivered_kwh_per_year=max(delivered, 1e-9),
@@ -234,7 +236,8 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
                 energy_price_per_kwh=eco.energy_price_per_kwh,
                 replacements=[(y, repl_cost) for y in repl_years]).per_year
         out.append(EvaluatedOption(
-            rank=0, option=o, round_trip_efficiency=float(rte[i]),
+            rank=0, option=o, round_trip_efficiency=float(rte), year_round_trip_efficiency=float(year_rte[i]),
+            standard_cycle=cycle,
             energy_in_kwh=float(sim.energy_in_kwh[i]), energy_out_kwh=delivered,
             unserved_kwh=float(sim.unserved_kwh[i]), unserved_hours=float(sim.unserved_hours[i]),
             curtailed_kwh=float(sim.curtailed_kwh[i]), generator_hours=float(sim.generator_hours[i]),
@@ -248,6 +251,35 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
             voltage_trace=None if sim.voltage_trace is None else sim.voltage_trace[:, i].copy(),
             monthly={k: np.asarray(v)[:, i].copy() for k, v in sim.monthly.items()}))
     return rank_evaluated(out, rank_by, job.application)
+
+
+def standby_cycle(job, option):
+    """One standard cycle of a standby bank at its duty cycle's mean current and depth.
+
+    Discharge: the duty cycle's Ah-weighted mean bank current, to the depth the
+    duty cycle takes out (its Ah over the bank's C10, at most 80 %). Recharge:
+    the charger's power left after the plant's continuous load, at the float
+    voltage, capped at the battery's maximum charge current per string.
+
+    Returns
+    -------
+    CycleEfficiency
+        See :func:`benchbook.model.efficiency.cycle_efficiency`.
+    """
+    from benchbook.model.efficiency import cycle_efficiency
+
+    spec = option.spec
+    ah = sum(p.current_a * p.minutes for p in job.duty_cycle) / 60.0
+    hours = sum(p.minutes for p in job.duty_cycle) / 60.0
+    depth = float(min(0.8, max(0.02, ah / (spec.c10_ah * option.parallel))))
+    v_float = option.cells * spec.float_voltage_per_cell_v
+    base_w = job.duty_cycle[-1].current_a * job.system_voltage_v
+    surplus = (float(job.charger_power_w) - base_w) / v_float if job.charger_power_w else 0.1 * spec.c10_ah
+    charge_a = float(min(max(surplus, 0.02 * spec.c10_ah * option.parallel),
+                         spec.max_charge_current_a * option.parallel))
+    return cycle_efficiency(spec, option.series, option.parallel, depth=depth, discharge_current_a=ah / hours,
+                            charge_current_a=charge_a, temp_c=job.avg_temp_c,
+                            end_voltage_per_cell_v=job.end_voltage_per_cell_v)
 
 
 RANK_KEYS = ("cost", "unserved", "price", "weight")

@@ -55,6 +55,7 @@ def option_record(e: EvaluatedOption) -> dict:
         "price": _num(o.price, 2),
         "feasible": bool(o.feasible),
         "round_trip_efficiency": _num(e.round_trip_efficiency),
+        "year_round_trip_efficiency": _num(e.year_round_trip_efficiency),
         "energy_in_kwh": _num(e.energy_in_kwh, 2),
         "energy_out_kwh": _num(e.energy_out_kwh, 2),
         "unserved_kwh": _num(e.unserved_kwh, 3),
@@ -108,8 +109,10 @@ def format_options(job, evaluated: Sequence[EvaluatedOption], top: int = 10) -> 
     flagged = [(e.rank, f) for e in evaluated[:top] for f in e.option.flags]
     if flagged:
         out += ["", "Flags:"] + [f"  #{r}: {f}" for r, f in flagged]
+    rte = ("one standard cycle at the duty cycle's rate and depth" if standby
+           else "energy out over energy in for the simulated year")
     out += ["", "Gain: usable energy of P strings over P x one string at the full load (KiBaM). "
-            "RTE: round-trip energy efficiency over the simulated year.",
+            f"RTE: round-trip energy efficiency, {rte}.",
             "Ranked by " + ("cost of readiness per year" if standby else "cost per delivered kWh")
             + "; options that miss the requirement come last."]
     return "\n".join(out)
