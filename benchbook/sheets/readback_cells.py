@@ -278,11 +278,6 @@ def _columns(grid: list[list[Any]], header_row: int) -> list[tuple[int, str]]:
     return [(j + 1, str(v).strip()) for j, v in enumerate(row) if isinstance(v, str) and v.strip()]
 
 
-def _column_values(grid: list[list[Any]], start: int, col: int) -> list[Any]:
-    j = col - 1
-    return [row[j] if j < len(row) else "" for row in grid[start:]]
-
-
 def _blank(v: Any) -> bool:
     return v is None or (isinstance(v, str) and not v.strip())
 
@@ -295,8 +290,9 @@ def _numeric_column(rd: _Reader, sheet: str, values: list[Any], rows: Sequence[i
     otherwise each non-number cell is judged by :meth:`_Reader.number`. Range
     checks of plain numbers are the caller's.
     """
-    kinds = {v.__class__ for v in values}
-    if kinds <= {float}:
+    if isinstance(values, np.ndarray):
+        return np.array(values, dtype=float)
+    if set(map(type, values)) <= {float}:
         return np.array(values, dtype=float)
     out = np.full(len(values), NAN)
     for i, v in enumerate(values):

@@ -75,6 +75,7 @@ class RawBook:
     tables: dict[str, TableArea]
     _cwb: Any = None
     _grids: dict[str, list[list[Any]]] = field(default_factory=dict)
+    _sheets: dict[str, Any] = field(default_factory=dict)
     _formulas: dict[str, set[tuple[int, int]]] = field(default_factory=dict)
     _merges: dict[str, list[tuple[int, int, int, int]]] = field(default_factory=dict)
     _pool: Optional[ThreadPoolExecutor] = None
@@ -84,11 +85,17 @@ class RawBook:
         """All values of ``sheet`` from A1 (``""`` for an empty cell), cached values for formulas."""
         if sheet not in self._grids:
             try:
-                self._grids[sheet] = self._cwb.get_sheet_by_name(sheet).to_python(skip_empty_area=False)
+                self._grids[sheet] = self._sheet(sheet).to_python(skip_empty_area=False)
             except Exception as exc:  # calamine raises its own kinds on broken parts
                 raise FileFormatError(f"{self.path.name}: sheet {sheet} could not be read ({type(exc).__name__}: "
                                       f"{exc}); open the file and save it again as .xlsx") from None
         return self._grids[sheet]
+
+    def _sheet(self, sheet: str):
+        """python-calamine's sheet object, parsed once (each get_sheet_by_name parses the sheet again)."""
+        if sheet not in self._sheets:
+            self._sheets[sheet] = self._cwb.get_sheet_by_name(sheet)
+        return self._sheets[sheet]
 
     def formulas(self, sheet: str) -> set[tuple[int, int]]:
         """``(row, col)`` (1-based) of every cell of ``sheet`` that holds a formula."""
@@ -108,7 +115,7 @@ class RawBook:
         if sheet not in self._merges:
             out = []
             try:
-                ranges = self._cwb.get_sheet_by_name(sheet).merged_cell_ranges or []
+                ranges = self._sheet(sheet).merged_cell_ranges or []
             except Exception:  # noqa: BLE001 - merges are advisory
                 ranges = []
             for (r1, c1), (r2, c2) in ranges:
@@ -120,6 +127,7 @@ class RawBook:
         if self._pool is not None:
             self._pool.shutdown(wait=True, cancel_futures=True)
             self._pool = None
+        self._sheets.clear()
         if self._cwb is not None:
             self._cwb.close()
             self._cwb = None
@@ -156,7 +164,7 @@ def open_raw(path: str | Path) -> RawBook:
         if kind == "ods":
             cwb = python_calamine.CalamineWorkbook.from_path(str(p))
         else:
-            cwb = python_calamine.CalamineWorkbook.from_path(str(p), load_tables=True)
+            cwb = python_calamine.CalamineWorkbook.from_path(str(p))
     except Exception as exc:  # calamine raises its own kinds on broken parts
         cancel.set()
         pool.shutdown(wait=True, cancel_futures=True)
@@ -170,12 +178,7 @@ def open_raw(path: str | Path) -> RawBook:
             book._formulas, book._merges = formulas, merges
         else:
             names = _xlsx_names(p, sheets)
-            tables = {}
-            for tname in cwb.table_names or []:
-                t = cwb.get_table_by_name(tname)
-                (r0, c0), (r1, c1) = t.start, t.end  # 0-based data area; header is the row above
-                tables[tname.casefold()] = TableArea(tname, t.sheet, r0, c0 + 1, c1 + 1, r1 + 1)
-            book = RawBook(p, kind, sheets, names, tables, cwb)
+            book = RawBook(p, kind, sheets, names, _xlsx_tables(p), cwb)
         book._pool, book._scan = pool, scan
     except FileFormatError:
         cwb.close()
@@ -240,6 +243,37 @@ def _xlsx_names(path: Path, sheets: list[str]) -> dict[str, NamedCell]:
         (local if dn.get("localSheetId") is not None else out)[name.casefold()] = cell
     for k, v in local.items():
         out.setdefault(k, v)
+    return out
+
+
+def _xlsx_tables(path: Path) -> dict[str, TableArea]:
+    """Every Excel table, from its part (python-calamine's table API parses the whole sheet to give it)."""
+    import posixpath  # noqa: PLC0415
+
+    out: dict[str, TableArea] = {}
+    with zipfile.ZipFile(path) as zf:
+        members = set(zf.namelist())
+        for sheet, part in _sheet_parts(zf).items():
+            folder, base = posixpath.split(part)
+            rels = posixpath.join(folder, "_rels", base + ".rels")
+            if rels not in members:
+                continue
+            for rel in _xml(zf.read(rels)).iter(_NS_PKG + "Relationship"):
+                if not rel.get("Type", "").endswith("/table"):
+                    continue
+                target = rel.get("Target", "")
+                tpart = target.lstrip("/") if target.startswith("/") else posixpath.normpath(
+                    posixpath.join(folder, target))
+                if tpart not in members:
+                    continue
+                t = _xml(zf.read(tpart))
+                name = t.get("displayName") or t.get("name") or ""
+                try:
+                    c1, r1, c2, r2 = range_boundaries(t.get("ref", ""))
+                except (ValueError, TypeError):
+                    continue
+                if name and None not in (c1, r1, c2, r2):
+                    out[name.casefold()] = TableArea(name, sheet, r1, c1, c2, r2)
     return out
 
 

@@ -6,6 +6,7 @@ Used by :func:`benchbook.sheets.readback.read_with_notes`; the cell rules are in
 
 from __future__ import annotations
 
+import itertools
 import math
 import re
 from typing import Any, Optional
@@ -17,7 +18,7 @@ from benchbook.model.fieldtests import CapacityTest
 from benchbook.model.readings import BlockReading, parse_block_id
 from benchbook.sheets import names as N
 from benchbook.sheets.readback import BankIdentity, CapacityTestRecord, CellMap, ReadingsRecord
-from benchbook.sheets.readback_cells import (NAN, _blank, _block_accept, _column_values, _columns,
+from benchbook.sheets.readback_cells import (NAN, _blank, _block_accept, _columns,
                                              _fahrenheit_column, _locate_table, _merged_in, _names, _numeric_column,
                                              _range_text, _Reader, _table_formulas, parse_number)
 from benchbook.sheets.readback_scan import RawBook
@@ -31,6 +32,50 @@ def _identity(vals: dict[str, Any]) -> Optional[BankIdentity]:
     return BankIdentity(vals["site"], vals["bank_id"], vals["spec.model"], vals["spec.chemistry"],
                         vals["spec.cells_per_block"], vals["series"], vals["parallel"])
 
+
+
+def _body_columns(grid: list[list[Any]], header_row: int, cols: list[int]) -> dict[int, Any]:
+    """The values under the header of each column in ``cols`` (1-based).
+
+    A body of plain numbers only (a logger's export) becomes one float matrix at
+    once, its columns float arrays; anything else is transposed into tuples of
+    the raw values, to be judged cell by cell.
+    """
+    body = grid[header_row:]
+    if not body:
+        return {c: () for c in cols}
+    width = max(cols)
+    if len(set(map(len, body))) == 1 and len(body[0]) >= width:
+        if set(map(type, itertools.chain.from_iterable(body))) <= {float}:
+            m = np.array(body, dtype=float)
+            return {c: m[:, c - 1] for c in cols}
+    else:
+        body = [list(r) + [""] * (width - len(r)) for r in body]
+    allcols = list(zip(*body))
+    return {c: allcols[c - 1] for c in cols}
+
+
+def _py(v: Any) -> Any:
+    """A numpy scalar as the Python value a cell held (for messages)."""
+    return v.item() if isinstance(v, np.generic) else v
+
+
+def _filled(values) -> np.ndarray:
+    """Which cells of a column hold something (not "", None or blanks); a column of numbers at once."""
+    if isinstance(values, np.ndarray) or set(map(type, values)) <= {float, int}:
+        return np.ones(len(values), dtype=bool)
+    return np.fromiter((not (v is None or (v.__class__ is str and not v.strip())) for v in values), bool,
+                       len(values))
+
+
+def _take(values, keep: np.ndarray):
+    """``values`` at the rows ``keep`` (all of the first rows, in the usual case, by a slice)."""
+    n = keep.size
+    if isinstance(values, np.ndarray):
+        return values[:n] if n and keep[-1] == n - 1 else values[keep]
+    if n and keep[-1] == n - 1:
+        return list(values[:n])
+    return [values[i] for i in keep]
 
 
 # ---- the capacity-test sheet -------------------------------------------------------------------
@@ -87,12 +132,12 @@ def read_capacity(rd: _Reader) -> Optional[CapacityTestRecord]:
         return None
     cpb, series = bank.cells_per_block, bank.series
     first = hrow + 1
-    raw = {f: _column_values(grid, hrow, col) for f, col in cols.items()}
-    raw_blocks = [_column_values(grid, hrow, col) for _, col in blocks]
-    n_all = max([len(v) for v in raw.values()] + [0])
-    filled = np.zeros(n_all, dtype=bool)
+    body = _body_columns(grid, hrow, list(cols.values()) + [c_ for _, c_ in blocks])
+    raw = {f: body[col] for f, col in cols.items()}
+    raw_blocks = [body[col] for _, col in blocks]
+    filled = np.zeros(len(grid) - hrow if len(grid) > hrow else 0, dtype=bool)
     for v in list(raw.values()) + raw_blocks:
-        filled |= np.array([not _blank(x) for x in v], dtype=bool)
+        filled |= _filled(v)
     used = np.flatnonzero(filled)
     n = int(used[-1]) + 1 if used.size else 0
     colmap = {cols[f]: fixed[f].header for f in cols} | {col: N.block_header(b) for b, col in blocks}
@@ -111,16 +156,16 @@ def read_capacity(rd: _Reader) -> Optional[CapacityTestRecord]:
         if f not in cols:
             arrays[f] = np.full(keep.size, NAN)
             continue
-        vals_f = [raw[f][i] for i in keep]
+        vals_f = _take(raw[f], keep)
         lo, hi = h.low, h.high
         unit = h.header.split("[")[-1].rstrip("]") if "[" in h.header else ""
-        a = _numeric_column(rd, sheet, vals_f, [first + int(i) for i in keep], cols[f], h.header, lo, hi, unit)
+        a = _numeric_column(rd, sheet, vals_f, first + keep, cols[f], h.header, lo, hi, unit)
         # plain numbers skipped the per-cell judgement: judge their range now (text was judged already)
         if f == "pilot_temp_c":
             a = _fahrenheit_column(rd, sheet, a, a1(cols[f], hrow), h.header)
         bad = np.flatnonzero(np.isfinite(a) & ~((a >= lo) & (a <= hi)))
         for i in bad:
-            rd.error(sheet, a1(cols[f], first + int(keep[i])), vals_f[i], _range_text(lo, hi, unit), h.header)
+            rd.error(sheet, a1(cols[f], first + int(keep[i])), _py(vals_f[i]), _range_text(lo, hi, unit), h.header)
         arrays[f] = a
     t = arrays["elapsed_min"]
     for i in np.flatnonzero(~np.isfinite(t)):
@@ -142,17 +187,17 @@ def read_capacity(rd: _Reader) -> Optional[CapacityTestRecord]:
             spike = not dip and (k == 1 or t[fin[k - 2]] < t[i])
             bad, ref = (prev, i) if spike else (i, prev)
             flagged.add(bad)
-            rd.error(sheet, a1(cols["elapsed_min"], first + int(keep[bad])), raw["elapsed_min"][keep[bad]],
+            rd.error(sheet, a1(cols["elapsed_min"], first + int(keep[bad])), _py(raw["elapsed_min"][keep[bad]]),
                      f"elapsed minutes that increase down the log (row {first + int(keep[ref])} says {t[ref]:g})",
                      fixed["elapsed_min"].header)
     accept, expected = _block_accept(cpb, series, per_cell_check=False)
     bv = np.full((keep.size, len(blocks)), NAN)
     for j, (bid, col) in enumerate(blocks):
-        vals_b = [raw_blocks[j][i] for i in keep]
-        a = _numeric_column(rd, sheet, vals_b, [first + int(i) for i in keep], col, f"Block {bid} voltage [V]", 0,
+        vals_b = _take(raw_blocks[j], keep)
+        a = _numeric_column(rd, sheet, vals_b, first + keep, col, f"Block {bid} voltage [V]", 0,
                             3.0 * cpb, "V", accept, expected(None))
         for i in np.flatnonzero(np.isfinite(a) & ((a < 0) | (a > 3.0 * cpb))):
-            rd.error(sheet, a1(col, first + int(keep[i])), vals_b[i], expected(float(a[i])), f"Block {bid} voltage")
+            rd.error(sheet, a1(col, first + int(keep[i])), _py(vals_b[i]), expected(float(a[i])), f"Block {bid} voltage")
         bv[:, j] = a
     bypassed: list[str] = []
     for part in re.split(r"[,;\s]+", str(vals.get("bypassed") or "").strip()):
