@@ -83,6 +83,34 @@ def build_parser() -> argparse.ArgumentParser:
     _add_force(p)
     p.set_defaults(handler=_cmd_compare)
 
+    p = sub.add_parser("fieldsheet", help="write a data-entry sheet for a field crew",
+                       description="Write a capacity-test or routine-readings sheet for one bank, pre-filled with "
+                                   "its identity and every block numbered by string and position.")
+    p.add_argument("job", nargs="?", help="job workbook (.xlsx); or use --from-quote")
+    p.add_argument("--from-quote", dest="quote", help="a quote written by `benchbook quote`")
+    p.add_argument("--option", type=int, default=1, help="rank of the option, as `size` lists it (default 1)")
+    p.add_argument("--kind", required=True, choices=("capacity-test", "readings"), help="which sheet")
+    p.add_argument("--bank-id", default="BANK-1", help="the bank's name on site (default BANK-1)")
+    p.add_argument("--test-hours", type=float, default=3.0,
+                   help="rated duration the capacity test runs at, from the rate table (default 3)")
+    p.add_argument("--catalog", help="battery catalog workbook or CSV")
+    p.add_argument("-o", "--output", required=True, help="sheet to write (.xlsx)")
+    _add_force(p)
+    p.set_defaults(handler=_cmd_fieldsheet)
+
+    p = sub.add_parser("check", help="check filled field sheets against the model",
+                       description="Read filled capacity-test or readings sheets (a file or a folder), validate "
+                                   "every entry, apply the IEEE 450 and maintenance checks, compare with the "
+                                   "model, and write checked copies with a Findings sheet.")
+    p.add_argument("path", help="a filled sheet (.xlsx, .xlsm, .ods) or a folder of them")
+    p.add_argument("-o", "--output", help="checked copy to write (a folder for a folder input; "
+                                         "default FOLDER/checked for folders, none for one file)")
+    p.add_argument("--baseline", help="an earlier sheet of the same bank to compare with")
+    p.add_argument("--json", action="store_true", help="print the findings as JSON")
+    p.add_argument("--workers", type=int, help="processes for a folder (default: the number of CPUs)")
+    _add_force(p)
+    p.set_defaults(handler=_cmd_check)
+
     p = sub.add_parser("template-check", help="check a template against the template contract",
                        description="List every missing or malformed defined name and table header of a "
                                    "template. Exit 0 when it is usable.")
@@ -148,6 +176,24 @@ def _cmd_compare(args: argparse.Namespace) -> int:
                        force=args.force, hourly=not args.no_hourly)
     print(f"wrote {path}")
     return 0
+
+
+def _cmd_fieldsheet(args: argparse.Namespace) -> int:
+    from benchbook.sheets.fieldjobs import write_fieldsheet
+
+    path = write_fieldsheet(args.kind, args.output, job=args.job, quote=args.quote, option=args.option,
+                            catalog=args.catalog, bank_id=args.bank_id, test_hours=args.test_hours, force=args.force)
+    print(f"wrote {path}")
+    return 0
+
+
+def _cmd_check(args: argparse.Namespace) -> int:
+    from benchbook.sheets.checked import check_path
+    from benchbook.sheets.fieldjobs import check_text
+
+    rep = check_path(args.path, out=args.output, baseline=args.baseline, force=args.force, workers=args.workers)
+    print(rep.to_json() if args.json else check_text(rep))
+    return rep.exit_code
 
 
 def _cmd_template_check(args: argparse.Namespace) -> int:
