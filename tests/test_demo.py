@@ -1,0 +1,102 @@
+"""End to end: `benchbook demo` in a temporary folder, its key numbers read back."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import openpyxl
+import pytest
+from python_calamine import CalamineWorkbook
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory) -> tuple[Path, subprocess.CompletedProcess]:
+    out = tmp_path_factory.mktemp("demo") / "demo-out"
+    r = subprocess.run([sys.executable, "-m", "benchbook", "demo", str(out), "--no-pdf"], capture_output=True,
+                       text=True, timeout=900)
+    assert r.returncode == 0, r.stderr
+    return out, r
+
+
+def _named(wb, name):
+    dest = next(iter(wb.defined_names[name].destinations))
+    return wb[dest[0]][dest[1].replace("$", "")]
+
+
+def test_demo_writes_the_whole_job(demo):
+    out, r = demo
+    expected = ["jobs/offgrid-larchmoor.xlsx", "jobs/standby-brindle-hill.xlsx",
+                "compare/offgrid-larchmoor-options.xlsx", "compare/standby-brindle-hill-options.xlsx",
+                "quotes/offgrid-larchmoor-quote.xlsx", "quotes/standby-brindle-hill-quote.xlsx",
+                "field/DC-A-capacity-test.xlsx", "field/DC-A-readings.xlsx",
+                "field/filled/DC-A-capacity-test-2026-03.xlsx", "field/filled/DC-A-readings-2026-03.xlsx",
+                "field/checked/fleet-summary.xlsx"]
+    for rel in expected:
+        assert (out / rel).is_file(), rel
+        assert rel in r.stdout or Path(rel).name in r.stdout or rel.startswith("field/checked/")
+    assert len(list((out / "field" / "checked").glob("*.checked.xlsx"))) == 2
+    assert "Larchmoor upland research hut" in r.stdout and "Brindle Hill relay shelter" in r.stdout
+    assert "local codes" in r.stdout.lower() or "licensed practice" in r.stdout
+
+
+def test_quote_grand_total_is_the_sum_of_its_lines(demo):
+    out, r = demo
+    for name in ("offgrid-larchmoor", "standby-brindle-hill"):
+        path = out / "quotes" / f"{name}-quote.xlsx"
+        wb = openpyxl.load_workbook(path)
+        ws_name, ref = next(iter(wb.defined_names["quote_grand_total"].destinations))
+        ws = wb[ws_name]
+        table = next(t for t in ws.tables.values() if t.name == "QuoteItems")
+        first, last = table.ref.split(":")
+        rows = list(ws[first:last])
+        head = [c.value for c in rows[0]]
+        qi, pi = head.index(next(h for h in head if h.startswith("Qty"))), \
+            head.index(next(h for h in head if h.startswith("Unit price")))
+        lines = sum(float(row[qi].value) * float(row[pi].value) for row in rows[1:] if row[qi].value is not None)
+        # totals are formulas, so no cached values: the sum is the one the demo printed
+        assert str(_named(wb, "quote_grand_total").value).startswith("=")
+        discount = float(_named(wb, "quote_discount_rate").value or 0)
+        tax = float(_named(wb, "quote_tax_rate").value or 0)
+        total = lines * (1 - discount) * (1 + tax)
+        printed = f"quote grand total {total:,.2f}"
+        assert printed in r.stdout, (printed, r.stdout)
+
+
+def test_checked_copies_name_the_planted_mistakes(demo):
+    out, _ = demo
+    checked = out / "field" / "checked"
+    found = {}
+    for path in checked.glob("*.checked.xlsx"):
+        wb = CalamineWorkbook.from_path(str(path))
+        assert "Findings" in wb.sheet_names
+        rows = wb.get_sheet_by_name("Findings").to_python()
+        found[path.name] = " ".join(str(v) for row in rows for v in row)
+    readings = found["DC-A-readings-2026-03.checked.xlsx"]
+    # planted by fill_readings(mistakes=True): an SG typed as points, a string total in a block cell,
+    # decimal commas and units typed into cells
+    assert "read as 1.2" in readings and "SG points" in readings
+    assert "string total" in readings
+    assert "decimal comma" in readings
+    assert "unit 'V' removed" in readings or "unit 'µΩ' removed" in readings
+    test = found["DC-A-capacity-test-2026-03.checked.xlsx"]
+    assert "°F" in test
+
+
+def test_demo_refuses_a_non_empty_folder(tmp_path):
+    (tmp_path / "keep.txt").write_text("mine")
+    r = subprocess.run([sys.executable, "-m", "benchbook", "demo", str(tmp_path)], capture_output=True, text=True,
+                       timeout=120)
+    assert r.returncode == 2
+    assert "not empty" in r.stderr and "--force" in r.stderr
+    assert (tmp_path / "keep.txt").read_text() == "mine"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["keep.txt"]
+
+
+def test_fleet_summary_has_a_row_per_sheet(demo):
+    out, _ = demo
+    wb = CalamineWorkbook.from_path(str(out / "field" / "checked" / "fleet-summary.xlsx"))
+    text = json.dumps([wb.get_sheet_by_name(n).to_python() for n in wb.sheet_names], default=str)
+    assert "DC-A-readings-2026-03" in text and "DC-A-capacity-test-2026-03" in text
