@@ -399,3 +399,19 @@ def test_any_value_in_any_input_cell(work, tmp_path, which, data):
         assert res.record is not None
         rep = check_file(p)  # the model checks accept every record the read-back accepts
         assert rep.status in ("pass", "attention", "fail")
+
+
+def test_shipped_samples_are_the_generator_output(tmp_path):
+    """samples/field holds what fieldsamples.write_samples makes (values compared; files carry timestamps)."""
+    from pathlib import Path
+
+    from benchbook.sheets.fieldsamples import write_samples
+
+    shipped = Path(__file__).resolve().parents[1] / "samples" / "field"
+    fresh = write_samples(tmp_path)
+    for p in fresh[:4]:
+        a, b = read_with_notes(shipped / p.name), read_with_notes(p)
+        assert (a.record is None) == (b.record is None) and len(a.errors) == len(b.errors)
+        if a.record is not None:
+            assert repr(a.record.as_dict()) == repr(b.record.as_dict())
+    assert {p.name for p in (shipped / "trend-DC-A").iterdir()} == {p.name for p in fresh[4:]}

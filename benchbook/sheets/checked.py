@@ -255,7 +255,8 @@ def check_file(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,
         raise FileFormatError(f"{out}: is the input file; give another name for the checked copy")
     res = read_with_notes(src)
     findings = [Finding(e.where, "error", e.message, "bad-entry") for e in res.errors] + list(res.notes)
-    rep = CheckReport(src.name, res.kind, "pass", [])
+    rep = CheckReport(src.name, res.kind, "pass", [], bank=res.bank,
+                      date=res.date.isoformat() if res.date else None)
     rec = res.record
     if rec is not None:
         base = None

@@ -238,9 +238,9 @@ def write_samples(folder: str | os.PathLike, force: bool = False) -> list[Path]:
     write_field_sheet(bank, "capacity-test", blank_ct, force=True, generated=_dt.date(2026, 3, 2))
     write_field_sheet(bank, "readings", blank_rd, force=True, generated=_dt.date(2026, 3, 2))
     try:
-        sim = simulate_capacity_test(bank, health=0.93, weak={"S1-07": 0.78}, temp_c=21.0, seed=7)
+        sim = simulate_capacity_test(bank, health=0.96, weak={"S1-07": 0.86}, temp_c=21.0, seed=7)
         written.append(fill_capacity_test(blank_ct, out / "capacity-test-clean.xlsx", sim, date=_dt.date(2026, 3, 10),
-                                          previous_percent=101.0, age_years=6.0, force=force))
+                                          previous_percent=97.0, age_years=6.0, force=force))
         written.append(fill_capacity_test(blank_ct, out / "capacity-test-mistakes.xlsx", sim,
                                           date=_dt.date(2026, 3, 10), age_years=6.0, mistakes=True, seed=7,
                                           force=force))

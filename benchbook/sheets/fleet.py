@@ -414,7 +414,7 @@ def write_fleet_summary(path: str | os.PathLike, sheets: Sequence[SheetSummary],
         ws.merge_cells(start_row=r, start_column=2, end_row=r, end_column=7)
         write_text(ws.cell(r, 2), c.text)
         ws.cell(r, 2).alignment = st["wrap"]
-        ws.row_dimensions[r].height = 28
+        ws.row_dimensions[r].height = 13.5 * max(2, -(-len(c.text) // 150))
     ws.freeze_panes = "A4"
     w2 = wb.create_sheet("Sheets")
     header(w2, 1, ("File", "Kind", "Site", "Bank", "Date", "Status", "Capacity [%]", "Errors", "Warnings",
@@ -429,6 +429,11 @@ def write_fleet_summary(path: str | os.PathLike, sheets: Sequence[SheetSummary],
             w2.cell(i, c).alignment = st["wrap"]
         w2.cell(i, 6).fill = st["fill"](_STATUS_FILL[s.status])
     w2.freeze_panes = "A2"
+    for w in (ws, w2):
+        w.page_setup.orientation = "landscape"
+        w.page_setup.fitToWidth, w.page_setup.fitToHeight = 1, 0
+        w.sheet_properties.pageSetUpPr.fitToPage = True
+        w.print_title_rows = "3:3" if w is ws else "1:1"
     with atomic_output(path, force=force) as tmp:
         wb.save(tmp)
     return Path(path)

@@ -168,6 +168,8 @@ class ReadResult:
     errors: tuple[InputError, ...]
     notes: tuple[Finding, ...]
     kind: str
+    bank: Optional[BankIdentity] = None
+    date: Optional[_dt.date] = None
 
 
 # ---- public ------------------------------------------------------------------------------------
@@ -196,7 +198,8 @@ def read_with_notes(path: str | Path) -> ReadResult:
         record = read_capacity(rd) if kind == "capacity-test" else read_readings(rd)
         if record is not None:
             record = _with_notes(record, tuple(rd.notes))
-        return ReadResult(record if not rd.problems else None, tuple(rd.problems.errors), tuple(rd.notes), kind)
+        return ReadResult(record if not rd.problems else None, tuple(rd.problems.errors), tuple(rd.notes), kind,
+                          rd.bank, rd.date)
 
 
 def _with_notes(record: FieldRecord, notes: tuple[Finding, ...]) -> FieldRecord:

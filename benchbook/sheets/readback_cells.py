@@ -132,6 +132,8 @@ class _Reader:
         self.book = book
         self.problems = Problems(book.path.name)
         self.notes: list[Finding] = []
+        self.bank: Any = None  # the BankIdentity, once the defined names are read
+        self.date: Optional[_dt.date] = None
 
     def error(self, sheet: str, cell: str, value: Any, expected: str, what: str = "") -> None:
         self.problems.add(sheet, cell, value, expected, what)

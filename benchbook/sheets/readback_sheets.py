@@ -86,6 +86,7 @@ def read_capacity(rd: _Reader) -> Optional[CapacityTestRecord]:
     book, c = rd.book, N.contract("capacity-test")
     vals, where = _names(rd, c)
     bank = _identity(vals)
+    rd.bank, rd.date = bank, vals.get("date")
     spec_log = c.table("TestLog")
     fixed = {h.field: h for h in spec_log.headers}
     sheet, hrow = _locate_table(book, "TestLog", spec_log.sheet, (fixed["elapsed_min"].header,))
@@ -283,6 +284,7 @@ def read_readings(rd: _Reader) -> Optional[ReadingsRecord]:
     book, c = rd.book, N.contract("readings")
     vals, where = _names(rd, c)
     bank = _identity(vals)
+    rd.bank, rd.date = bank, vals.get("date")
     spec_t = c.table("BlockReadings")
     sheet, hrow = _locate_table(book, "BlockReadings", spec_t.sheet, ("Block", "Float voltage [V]"))
     grid = book.grid(sheet)
