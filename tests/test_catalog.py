@@ -4,7 +4,7 @@ Cell references are A1 references as a spreadsheet shows them (ECMA-376 Part 1
 §18.3.1.4 for workbooks; a CSV file opened in a spreadsheet puts its first line
 in row 1 and its first field in column A — common practice, no source). The
 rate-table rule (capacity falls as the current rises) is the physics of
-Peukert's law (Peukert 1897, REFERENCES.md) as checked by BatterySpec.
+Peukert's law (Peukert 1897, docs/references.md) as checked by BatterySpec.
 """
 
 from __future__ import annotations

@@ -77,7 +77,7 @@ def test_summary_values_and_formulas(tmp_path, records):
         assert v("capex_pv") == pytest.approx(rec.lcos.capex)
         assert v("charging_pv") == pytest.approx(rec.lcos.charging_pv)
         assert v("delivered_pv") == pytest.approx(rec.lcos.delivered_kwh_pv)
-        # IEC 62485-2 boost airflow, Q = 0.05 n I_gas C10 1e-3 (REFERENCES.md [text])
+        # IEC 62485-2 boost airflow, Q = 0.05 n I_gas C10 1e-3 (docs/references.md [text])
         cells = o.spec.cells_per_block * o.blocks
         gas = 20 if o.spec.chemistry == "flooded" else 8
         assert v("airflow") == pytest.approx(0.05 * cells * gas * o.spec.c10_ah * 1e-3)

@@ -2,7 +2,7 @@
 
 Sources beside each check. The trade range of round-trip energy efficiency,
 about 70-90 % for lead-acid at moderate rates, and "about 1.2 Ah back per Ah
-out" are common practice, no source (REFERENCES.md [practice]). The voltage
+out" are common practice, no source (docs/references.md [practice]). The voltage
 and charge-efficiency expressions are Copetti, Lorenzo & Chenlo, Prog.
 Photovolt. 1:283-292 (1993), from memory. Batteries are the invented catalog.
 """

@@ -28,7 +28,7 @@ def test_time_adjusted_cold_battery_is_raised():
     # IEEE 450 time-adjusted % = t_a/t_s x K x 100 (from memory); K at 60 °F = 1.11, IEEE 485 Table 1
     # (from memory; published PV worksheets give 1.11 at 60 °F [text])
     assert capacity_percent(180, 180, f_to_c(60)) == pytest.approx(111.0, abs=1e-9)
-    # the direction: a cold test battery's corrected capacity is HIGHER than uncorrected (REFERENCES.md)
+    # the direction: a cold test battery's corrected capacity is HIGHER than uncorrected (docs/references.md)
     assert capacity_percent(150, 180, f_to_c(50)) > 150 / 180 * 100
     # at 77 °F the factor is 1.000 (IEEE 485 Table 1, from memory)
     assert capacity_percent(165, 180, 25.0) == pytest.approx(165 / 180 * 100, rel=1e-12)
@@ -53,7 +53,7 @@ def test_rate_adjusted_method_and_current():
 @settings(max_examples=60, deadline=None)
 @given(st.floats(0, 600), st.floats(10, 600), st.floats(-3, 50))
 def test_time_adjusted_direction_property(t, rated, temp):
-    # direction of the correction (REFERENCES.md, IEEE 450 [memory]): colder -> raised, warmer -> lowered
+    # direction of the correction (docs/references.md, IEEE 450 [memory]): colder -> raised, warmer -> lowered
     pct = capacity_percent(t, rated, temp)
     raw = t / rated * 100
     if temp < 25 - 1e-9:
@@ -177,7 +177,7 @@ def test_capacity_test_validation_lists_every_field():
 
 
 # ---- comparison with the model ----------------------------------------------------------------------
-MM = Kibam(0.315, 1.24, 100.0)  # Manwell & McGowan 1993 indicative lead-acid values (REFERENCES.md [text])
+MM = Kibam(0.315, 1.24, 100.0)  # Manwell & McGowan 1993 indicative lead-acid values (docs/references.md [text])
 
 
 def _runtime_ref(kb, current, factor=1.0):
@@ -190,7 +190,7 @@ def _runtime_ref(kb, current, factor=1.0):
 
 
 def test_compare_with_model_check_value():
-    # check value q(1 h) = 44.519 Ah for q_max = 100 (Manwell & McGowan 1993 values, REFERENCES.md [text])
+    # check value q(1 h) = 44.519 Ah for q_max = 100 (Manwell & McGowan 1993 values, docs/references.md [text])
     cmp = compare_with_model(MM, current_per_string_a=44.519, temp_c=25.0, measured_minutes=54.0,
                              rated_minutes=60.0, design_life_25c_years=20.0)
     assert cmp.predicted_minutes == pytest.approx(60.0, abs=0.01)
@@ -238,7 +238,7 @@ def _blocks(**changes):
 def test_readings_equalize_and_spread():
     blocks = _blocks(**{"S1-02": {"specific_gravity": 1.200}, "S1-05": {"float_voltage_v": 2.12}})
     res = check_readings(blocks, cells_per_block=1, chemistry="flooded", ambient_temp_c=24.0)
-    # equalize if SG > 0.010 below the mean or float < 2.13 V/cell (REFERENCES.md thresholds, common practice)
+    # equalize if SG > 0.010 below the mean or float < 2.13 V/cell (docs/references.md thresholds, common practice)
     assert res.equalize == ("S1-02", "S1-05")
     mean = (5 * sg_corrected(1.215, 24.0) + sg_corrected(1.200, 24.0)) / 6
     assert res.sg_mean == pytest.approx(mean)

@@ -87,7 +87,7 @@ def test_bad_series():
 # ---- Wöhler fit -------------------------------------------------------------------------
 def test_two_point_fit_by_hand():
     n100, b = cycle_life_fit([(0.5, 1200.0), (0.8, 600.0)])
-    # hand: b = ln(N1/N2) / ln(D2/D1) (REFERENCES.md, common practice, no source)
+    # hand: b = ln(N1/N2) / ln(D2/D1) (docs/references.md, common practice, no source)
     assert b == pytest.approx(math.log(1200 / 600) / math.log(0.8 / 0.5), rel=1e-12)
     # hand: n100 = N2 · D2**b, i.e. the law passes through both points
     assert n100 == pytest.approx(600 * 0.8 ** b, rel=1e-12)

@@ -92,10 +92,10 @@ def test_bom_quantities_follow_the_arrangement():
 
 
 def test_bom_fusing_rated_above_prospective_short_circuit():
-    # the interrupt rating must exceed V_oc / R_internal (REFERENCES.md [text]; NFPA 70 art. 110.9, from memory)
+    # the interrupt rating must exceed V_oc / R_internal (docs/references.md [text]; NFPA 70 art. 110.9, from memory)
     spec = SPECS["IL-2F-1000"]
     sc = bank_short_circuit(1, spec.internal_resistance_ohm, 24, 3).current_a
-    assert sc == pytest.approx(24 * 2.105 / (24 * 0.18e-3 / 3))  # 35,083 A (SG 1.265 + 0.84, REFERENCES.md [text])
+    assert sc == pytest.approx(24 * 2.105 / (24 * 0.18e-3 / 3))  # 35,083 A (SG 1.265 + 0.84, docs/references.md [text])
     fuse = next(l for l in bill_of_materials(spec, 24, 3) if l.item == "String fuses")
     rating_ka = float(re.search(r"at least (\d+) kA", fuse.description).group(1))
     assert rating_ka * 1000 > sc
@@ -169,7 +169,7 @@ def test_quote_fills_every_name(tmp_path, options):
     assert _cell(wb, "quote_discount_rate").value == 0.05 and _cell(wb, "quote_tax_rate").value == 0.2
     # floor loading = weight / footprint (definition, no source needed): 12 x 30 kg on 12 x 0.330 x 0.171 m2
     assert _cell(wb, "quote_floor_loading_kg_m2").value == pytest.approx(30 / (0.330 * 0.171))
-    # IEC 62485-2 boost airflow of 72 VRLA cells of 93 Ah C10: 0.05*72*8*93e-3 (REFERENCES.md [text])
+    # IEC 62485-2 boost airflow of 72 VRLA cells of 93 Ah C10: 0.05*72*8*93e-3 (docs/references.md [text])
     assert _cell(wb, "quote_airflow_boost_m3h").value == pytest.approx(0.05 * 72 * 8 * 93e-3)
     assert _cell(wb, "quote_vent_boost_cm2").value == pytest.approx(28 * 0.05 * 72 * 8 * 93e-3)
     # every numeric or text name of the contract that quote_values knows got its value

@@ -1,7 +1,7 @@
 """Rate of discharge: Peukert's law and KiBaM (benchbook.model.rate).
 
 Sources are named beside each check. "M&M 1993" is Manwell & McGowan, Solar
-Energy 50(5):399-405, 1993, as summarised in /work/shared/REFERENCES.md [text].
+Energy 50(5):399-405, 1993, as summarised in docs/references.md [text].
 """
 
 import math
@@ -75,12 +75,12 @@ def test_zero_step_is_identity():
 
 # ---- capacity at constant current ---------------------------------------------------------------
 def test_capacity_check_value():
-    # q(1 h) = 44.519 Ah for c=0.315, k=1.24 1/h, q_max=100 Ah (M&M 1993 indicative values, REFERENCES.md)
+    # q(1 h) = 44.519 Ah for c=0.315, k=1.24 1/h, q_max=100 Ah (M&M 1993 indicative values, docs/references.md)
     assert MM.capacity_ah(1.0) == pytest.approx(44.519, abs=5e-4)
 
 
 def test_capacity_limits():
-    # q -> c q_max as T -> 0 and q -> q_max as T -> inf (M&M 1993, REFERENCES.md)
+    # q -> c q_max as T -> 0 and q -> q_max as T -> inf (M&M 1993, docs/references.md)
     assert MM.capacity_ah(0.0) == pytest.approx(31.5, rel=1e-12)
     assert MM.capacity_ah(1e-9) == pytest.approx(31.5, rel=1e-8)
     assert MM.capacity_ah(math.inf) == 100.0
@@ -148,7 +148,7 @@ def test_charge_is_conserved(c, k, q, frac1, rate_c, dt):
 @given(_c, _k, _q, st.floats(0.01, 200.0), st.floats(1.001, 10.0))
 def test_lower_current_never_delivers_less(c, k, q, t, stretch):
     kb = Kibam(c, k, q)
-    # capacity is monotone in discharge time, i.e. falls as the current rises (M&M 1993, REFERENCES.md)
+    # capacity is monotone in discharge time, i.e. falls as the current rises (M&M 1993, docs/references.md)
     assert kb.capacity_ah(t * stretch) >= kb.capacity_ah(t) * (1 - 1e-12)
     i_hi = kb.capacity_ah(t) / t
     assert kb.runtime_h(i_hi / stretch) * i_hi / stretch >= kb.capacity_ah(t) * (1 - 1e-9)
@@ -204,7 +204,7 @@ def test_fit_needs_three_ratings():
 
 # ---- Peukert ----------------------------------------------------------------------------------
 def test_peukert_two_ratings():
-    # C20 = 100 Ah, C5 = 85 Ah -> k = ln(20/5) / ln(17/5) = 1.1328 (Peukert 1897 rated-capacity form, REFERENCES.md [text])
+    # C20 = 100 Ah, C5 = 85 Ah -> k = ln(20/5) / ln(17/5) = 1.1328 (Peukert 1897 rated-capacity form, docs/references.md [text])
     k = fit_peukert([(20, 100.0), (5, 85.0)])
     assert k == pytest.approx(1.1328, abs=5e-5)
     assert k == pytest.approx(math.log(4) / math.log(3.4), rel=1e-12)

@@ -22,13 +22,13 @@ from benchbook.model.safety import (
 # ---- gas current table ------------------------------------------------------------------
 
 @pytest.mark.parametrize("chem, mode, plugs, expected", [
-    # IEC 62485-2 table of I_gas (REFERENCES.md [text]): vented 5 float / 20 boost, VRLA 1 / 8
+    # IEC 62485-2 table of I_gas (docs/references.md [text]): vented 5 float / 20 boost, VRLA 1 / 8
     ("flooded", "float", False, 5.0),
     ("flooded", "boost", False, 20.0),
     ("agm", "float", False, 1.0),
     ("gel", "boost", False, 8.0),
     ("vrla", "float", False, 1.0),
-    # IEC 62485-2: recombination vent plugs halve the vented values (REFERENCES.md [text])
+    # IEC 62485-2: recombination vent plugs halve the vented values (docs/references.md [text])
     ("flooded", "float", True, 2.5),
     ("vented", "boost", True, 10.0),
 ])
@@ -48,7 +48,7 @@ def test_gas_current_rejects_unknown_and_plugs_on_vrla():
 # ---- airflow and openings ---------------------------------------------------------------
 
 def test_airflow_constant_is_dilution_times_hydrogen_times_safety():
-    # IEC 62485-2: 0.05 = v q s = 24 x 0.42e-3 m3/Ah x 5 (REFERENCES.md [text]); the standard rounds 0.0504
+    # IEC 62485-2: 0.05 = v q s = 24 x 0.42e-3 m3/Ah x 5 (docs/references.md [text]); the standard rounds 0.0504
     assert safety.DILUTION_FACTOR * safety.HYDROGEN_M3_PER_AH * safety.SAFETY_FACTOR == pytest.approx(0.0504)
     assert safety.AIRFLOW_CONSTANT == pytest.approx(0.0504, rel=0.01)
     # dilution factor v = (100 % - 4 %) / 4 % from hydrogen's 4 % lower flammability limit (IEC 62485-2 [text])
@@ -56,7 +56,7 @@ def test_airflow_constant_is_dilution_times_hydrogen_times_safety():
 
 
 def test_airflow_worked_examples():
-    # Q = 0.05 n I_gas C_rt 1e-3 (IEC 62485-2, REFERENCES.md [text]), worked by hand:
+    # Q = 0.05 n I_gas C_rt 1e-3 (IEC 62485-2, docs/references.md [text]), worked by hand:
     # 24 vented cells of 1000 Ah C10 on float (5 mA/Ah): 0.05*24*5*1000e-3 = 6.0 m3/h
     assert ventilation_airflow_m3h(24, 5.0, 1000.0) == pytest.approx(6.0, rel=1e-12)
     # same cells on boost (20 mA/Ah): 24 m3/h
@@ -68,7 +68,7 @@ def test_airflow_worked_examples():
 
 
 def test_vent_opening_is_28_q_and_matches_01_m_per_s():
-    # IEC 62485-2 natural ventilation: A = 28 Q [cm2] each for inlet and outlet (REFERENCES.md [text])
+    # IEC 62485-2 natural ventilation: A = 28 Q [cm2] each for inlet and outlet (docs/references.md [text])
     assert vent_opening_cm2(6.0) == pytest.approx(168.0, rel=1e-12)
     # 28 is Q / v with v = 0.1 m/s in cm2 per m3/h: 1e4 / 360 = 27.8 (IEC 62485-2 derivation, from memory)
     assert safety.OPENING_CM2_PER_M3H == pytest.approx(1e4 / (0.1 * 3600), rel=0.01)
@@ -81,7 +81,7 @@ def test_airflow_rejects_bad_numbers(args):
 
 
 def test_bank_ventilation_float_and_boost():
-    # 2 strings x 24 flooded 2 V cells of 420 Ah C10 -> n = 48 (IEC 62485-2 formula, REFERENCES.md [text])
+    # 2 strings x 24 flooded 2 V cells of 420 Ah C10 -> n = 48 (IEC 62485-2 formula, docs/references.md [text])
     v = bank_ventilation("flooded", 48, 420.0)
     assert v.cell_type == "vented"
     assert v.float_m3h == pytest.approx(0.05 * 48 * 5 * 420 * 1e-3)
@@ -107,18 +107,18 @@ def test_airflow_is_linear_in_cells_and_capacity(n, c, chem):
 # ---- short circuit ----------------------------------------------------------------------
 
 def test_ocv_from_specific_gravity():
-    # OCV per cell ~ SG + 0.84 V; 1.265 -> 2.105 V (REFERENCES.md [text])
+    # OCV per cell ~ SG + 0.84 V; 1.265 -> 2.105 V (docs/references.md [text])
     assert open_circuit_voltage_per_cell_v(1.265) == pytest.approx(2.105, abs=1e-12)
-    # a 12 V block at rest is about 12.65 V full (REFERENCES.md [text])
+    # a 12 V block at rest is about 12.65 V full (docs/references.md [text])
     assert 6 * open_circuit_voltage_per_cell_v(1.265) == pytest.approx(12.65, abs=0.05)
-    # sources give an offset of 0.84-0.85 (REFERENCES.md [text])
+    # sources give an offset of 0.84-0.85 (docs/references.md [text])
     assert open_circuit_voltage_per_cell_v(1.215, offset_v=0.85) == pytest.approx(2.065, abs=1e-12)
     with pytest.raises(ModelError, match="specific_gravity"):
         open_circuit_voltage_per_cell_v(2.1)
 
 
 def test_short_circuit_is_ohms_law():
-    # I = V_oc / R_internal (REFERENCES.md [text], "Codes to defer to"): 12.63 V / 4 mOhm = 3157.5 A
+    # I = V_oc / R_internal (docs/references.md [text], "Codes to defer to"): 12.63 V / 4 mOhm = 3157.5 A
     assert short_circuit_current_a(12.63, 0.004) == pytest.approx(3157.5, rel=1e-12)
     with pytest.raises(ModelError):
         short_circuit_current_a(12.6, 0.0)
@@ -128,7 +128,7 @@ def test_short_circuit_is_ohms_law():
 
 def test_bank_short_circuit_series_parallel():
     # 48 V of 12 V blocks (6 cells, 4 mOhm), 4 in series, 3 strings: R = 4*0.004/3 (series adds, parallel divides:
-    # Ohm's law, common practice, no source); OCV = 24 cells x 2.105 V (SG + 0.84, REFERENCES.md [text])
+    # Ohm's law, common practice, no source); OCV = 24 cells x 2.105 V (SG + 0.84, docs/references.md [text])
     sc = bank_short_circuit(6, 0.004, series=4, parallel=3)
     assert sc.open_circuit_v == pytest.approx(24 * 2.105)
     assert sc.resistance_ohm == pytest.approx(4 * 0.004 / 3)
@@ -173,8 +173,8 @@ def test_cautions_cover_the_usual_hazards(kind):
         assert t in topics
     assert topics[-1] == "codes"
     text = " ".join(c.text for c in cs)
-    assert "4 %" in text  # hydrogen LFL (REFERENCES.md [text])
-    assert "NFPA 70E" in text  # work on batteries and PPE (REFERENCES.md [text])
+    assert "4 %" in text  # hydrogen LFL (docs/references.md [text])
+    assert "NFPA 70E" in text  # work on batteries and PPE (docs/references.md [text])
     assert "thousands of amperes" in text
     assert "Local codes" in text and "licensed practice" in text
     assert all(c.heading and len(c.text) > 40 for c in cs)

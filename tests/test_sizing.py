@@ -138,7 +138,7 @@ def test_kt_from_spec_reads_the_rate_table():
 # ---------------------------------------------------------------------------------
 def test_autonomy_matches_the_published_worksheet_for_a_rate_independent_battery():
     # Hand working: 2160 Wh/day of load, inverter 0.90 → 2400 Wh/day DC; 48 V → 50 Ah/day;
-    # 3 days → 150 Ah; worksheet (IEEE 1013 structure, REFERENCES.md):
+    # 3 days → 150 Ah; worksheet (IEEE 1013 structure, docs/references.md):
     #   Ah = Wh/day × days / DoD_max × temp_factor / V = 2400 × 3 / 0.5 × 1.11 / 48 = 333 Ah
     #   × margin 1.10 × aging 1.25 = 457.875 Ah  → 5 strings of 100 Ah (4.58 rounded up).
     spec = flat_spec()
@@ -287,7 +287,7 @@ def test_flags_parallel_unreachable_and_end_voltage():
     opts = {o.model: o for o in enumerate_options(cyclic_job(end_voltage_per_cell_v=1.80), max_parallel=4)}
     agm = opts["IL-12A-100"]
     assert agm.parallel == 4 and not agm.feasible
-    assert FLAG_PARALLEL in agm.flags  # common practice: at most 3 strings in parallel (REFERENCES.md [practice])
+    assert FLAG_PARALLEL in agm.flags  # common practice: at most 3 strings in parallel (docs/references.md [practice])
     assert any(f.startswith("requirement not reached: 4 strings") for f in agm.flags)
     assert any("end voltage 1.80 V/cell differs" in f for f in agm.flags)
     cell = opts["IL-2F-1000"]

@@ -1,6 +1,6 @@
 """Temperature corrections (benchbook.model.temperature).
 
-IEEE 485 Table 1 values are from memory (REFERENCES.md marks them [memory]);
+IEEE 485 Table 1 values are from memory (docs/references.md marks them [memory]);
 the IEC 60896-11 formula is from a vendor summary [text]; the arithmetic of
 each IEC check is done by hand in the comment beside it.
 """
@@ -69,7 +69,7 @@ def test_vectorised_and_floor():
     expected_40 = 0.91 + (104.0 - 100.0) / 10.0 * (0.88 - 0.91)  # linear by hand: 0.898
     assert got.factor == pytest.approx([1.52, 1.19, 1.0, expected_40], abs=1e-12)
     assert got.in_table.tolist() == [False, True, True, True]
-    # no factor below 1.00 above 25 °C when sizing (REFERENCES.md; common practice, no source)
+    # no factor below 1.00 above 25 °C when sizing (docs/references.md; common practice, no source)
     assert ieee485_factor(40.0, floor_at_one=True) == 1.0
     assert ieee485_factor(10.0, floor_at_one=True) == pytest.approx(1.19)
 

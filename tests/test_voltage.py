@@ -1,7 +1,7 @@
 """Copetti voltage model (benchbook.model.voltage).
 
 Source of every expression: Copetti, Lorenzo & Chenlo, Prog. Photovolt.
-1:283-292 (1993), doi:10.1002/pip.4670010405, as recorded in REFERENCES.md
+1:283-292 (1993), doi:10.1002/pip.4670010405, as recorded in docs/references.md
 **from memory**. The expected values below were worked out by hand from those
 expressions (arithmetic shown), so they check the code against the recorded
 formulas, not against the paper itself.
@@ -110,10 +110,10 @@ def test_terminal_voltage_of_a_string():
     assert v[1] == pytest.approx(12 * equilibrium_voltage(0.8))
     assert v[2] == pytest.approx(12 * copetti_charge_voltage(0.8, 10.0, spec.c10_ah, 25.0, s))
     assert v[2] > v[1] > v[0]
-    # a 12 V block at rest, full: 6 × 2.085 = 12.51 V (OCV of a full 12 V block is about 12.6 V; REFERENCES.md [text])
+    # a 12 V block at rest, full: 6 × 2.085 = 12.51 V (OCV of a full 12 V block is about 12.6 V; docs/references.md [text])
     v_full = terminal_voltage(spec, 1, 1.0, 0.0)
     assert v_full == pytest.approx(12.51)
-    assert abs(v_full - 12.65) < 0.2  # REFERENCES.md [text]: a full 12 V block rests near 12.65 V
+    assert abs(v_full - 12.65) < 0.2  # docs/references.md [text]: a full 12 V block rests near 12.65 V
 
 
 def test_stored_energy_is_the_integral_of_the_equilibrium_voltage():

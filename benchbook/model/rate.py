@@ -89,7 +89,7 @@ def fit_peukert(ratings: Iterable[Sequence[float]]) -> float:
     W. Peukert, "Über die Abhängigkeit der Kapazität von der
     Entladestromstärke bei Bleiakkumulatoren", Elektrotechnische Zeitschrift,
     1897, pp. 287-288 (journal details from memory; rated-capacity form and
-    two-rating fit as summarised in REFERENCES.md).
+    two-rating fit as summarised in docs/references.md).
     """
     hours, ah = _ratings_array(ratings, "Peukert fit", 2)
     current = ah / hours

@@ -24,7 +24,7 @@ from benchbook.errors import FieldProblem, SpecError
 
 #: IEEE Std 485 Table 1, cell-size correction factor for vented cells of
 #: 1.215 nominal specific gravity: ``(temp_f, temp_c, factor)`` rows.
-#: **From memory** (REFERENCES.md marks it [memory]); several published PV
+#: **From memory** (docs/references.md marks it [memory]); several published PV
 #: worksheets give the same factors at 40, 50, 60 and 70 °F [text]. The °C
 #: column is the published rounding; interpolation uses the exact °F column.
 IEEE485_TABLE1: tuple[tuple[float, float, float], ...] = (

@@ -4,7 +4,7 @@ Copetti, Lorenzo & Chenlo (1993) give, per cell and normalised to the 10-hour
 capacity ``C10``, empirical expressions for the discharge voltage, the charge
 voltage, the charge (coulombic) efficiency, the gassing-onset and
 end-of-charge voltages and the capacity ratio. The expressions below are those
-recorded in the project's REFERENCES.md, which were **recalled, not read from
+recorded in the project's docs/references.md, which were **recalled, not read from
 the paper** ([memory]); tests that rely on them say "from memory".
 
 Notation (all per cell): ``SOC`` state of charge [-], ``I`` current magnitude
