@@ -329,7 +329,7 @@ def test_baselines(work, tmp_path):
     assert any(f.code == "baseline-other-kind" for f in other.findings)
 
 
-def test_folder_batch_with_trend_and_a_broken_file(work, tmp_path):
+def test_folder_batch_with_trend_and_a_broken_file(work, tmp_path, capsys):
     d, folder = work["dir"], tmp_path / "bank"
     folder.mkdir()
     for k, (year, h) in enumerate(((2024, 1.02), (2025, 0.97), (2026, 0.93))):
@@ -337,7 +337,8 @@ def test_folder_batch_with_trend_and_a_broken_file(work, tmp_path):
         fill_capacity_test(d / "blank-ct.xlsx", folder / f"t{year}.xlsx", sim, date=dt.date(year, 2, 1))
     (folder / "broken.xlsx").write_bytes(b"PK\x03\x04 not really a zip")
     shutil.copy(d / "rd.xlsx", folder / "other-bank.xlsx")
-    rep = check_path(folder, workers=2, progress=False)
+    rep = check_path(folder, workers=2)  # stderr is not a terminal here: no progress bar
+    assert capsys.readouterr().err == ""
     by = {s.source: s for s in rep.sheets}
     assert by["broken.xlsx"].kind == "unreadable" and by["broken.xlsx"].exit_code == 2
     assert [by[f"t{y}.xlsx"].date for y in (2024, 2025, 2026)] == ["2024-02-01", "2025-02-01", "2026-02-01"]
@@ -354,6 +355,8 @@ def test_folder_batch_with_trend_and_a_broken_file(work, tmp_path):
     assert {r[1] for r in rows} == {"B-12", "DC-A"} and all(r[3] in ("pass", "attention", "fail") for r in rows)
     with pytest.raises(FileFormatError, match="already exists"):
         check_path(folder, workers=1, progress=False)
+    check_path(folder, out=tmp_path / "again", workers=1, progress=True)
+    assert "5/5" in capsys.readouterr().err  # the bar, when asked for
     assert '"sheets"' in rep.to_json()
 
 

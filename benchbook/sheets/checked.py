@@ -209,6 +209,7 @@ def _check_record(rec: FieldRecord, baseline: Optional[FieldRecord], capacity_cr
         criteria=readings_criteria)
     found += _place(res2.findings, rec)
     extra.update({"sg_convention": res2.sg_convention, "sg_reference_c": res2.sg_reference_c,
+                  "ohmic_instrument": rec.ohmic_instrument,
                   "sg_mean": _r(res2.sg_mean, 4), "sg_spread": _r(res2.sg_spread, 4),
                   "temperature_spread_c": _r(res2.temp_spread_c, 1), "ohmic_kind": res2.ohmic_kind,
                   "equalize": list(res2.equalize), "baseline_source": baseline.source if base_blocks else None,
