@@ -33,7 +33,6 @@ import time
 
 sys.path.insert(0, os.path.abspath(os.path.join(os.path.dirname(__file__), "..", "..")))
 
-import numpy as np  # noqa: E402
 
 from benchbook.model.catalog import DEFAULT_CATALOG  # noqa: E402
 from benchbook.model.job import Generator, Load  # noqa: E402
