@@ -199,9 +199,13 @@ def _cmd_check(args: argparse.Namespace) -> int:
 def _cmd_template_check(args: argparse.Namespace) -> int:
     from benchbook.sheets.templatecheck import template_check
 
+    from benchbook.errors import TemplateError
+
     ok, text = template_check(args.template, kind=args.kind, strict=args.strict)
+    if not ok:
+        raise TemplateError(text)
     print(text)
-    return 0 if ok else 2
+    return 0
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -106,5 +106,6 @@ def test_template_check_lists_every_missing_name(tmp_path):
     before = hashlib.sha256(broken.read_bytes()).hexdigest()
     r = run("template-check", str(broken), "--kind", "quote")
     assert r.returncode == 2
-    assert "defined name quote_grand_total" in r.stdout and "defined name quote_site" in r.stdout
+    assert r.stderr.startswith("Error: firm-quote.xlsx: ")
+    assert "defined name quote_grand_total" in r.stderr and "defined name quote_site" in r.stderr
     assert hashlib.sha256(broken.read_bytes()).hexdigest() == before
