@@ -187,6 +187,11 @@ def _subcommands() -> list[str]:
 
 
 _FILEISH = re.compile(r"workbook|file|\.xlsx|csv|catalog|template|sheet|folder|path", re.I)
+_OUTPUT = re.compile(r"output|write|create|save", re.I)
+_NOT_FILE = re.compile(r"\bprocesses\b|\bnumber of\b|how many|\brank\b", re.I)
+# An output option pointed at an existing corpus file must refuse to overwrite it; that is the same
+# for every file, so it runs on a few (the command may do its whole computation first).
+OUTPUT_SAMPLE = ("empty.xlsx", "valid-job.xlsx", "zip-bomb-ratio.xlsx", "macro-vba.xlsm")
 
 
 def _variants(command: str) -> list[tuple[str, list[str]]]:
@@ -194,53 +199,81 @@ def _variants(command: str) -> list[tuple[str, list[str]]]:
     text = _help([command])
     pos = text.split("positional arguments:", 1)[-1].split("options:", 1)[0] if "positional arguments:" in text else ""
     positionals = re.findall(r"^ {2}([a-z][\w-]*)(?:\s|$)", pos, flags=re.M)
+    writes = bool(positionals) and all(_OUTPUT.search(h) for h in re.findall(r"^ {2}[a-z][\w-]*\s+(.*)", pos, flags=re.M))
     opts = text.split("options:", 1)[-1]
-    options = [m.group(1) for m in re.finditer(r"^ {2}(--[\w-]+) ([A-Z_]+)\s+(.*(?:\n {6,}.*)*)", opts, flags=re.M)
-               if _FILEISH.search(m.group(3))]
-    out = [("positional", ["{file}" for _ in positionals])]
-    sample = REPO / "samples" / "offgrid-cabin.xlsx"
-    base = [str(sample)] * len(positionals) if sample.exists() and command != "new" else ["{file}"] * len(positionals)
-    for opt in options:
-        out.append((opt, base + [opt, "{file}"]))
+    options = [(m.group(1), m.group(2), bool(_OUTPUT.search(m.group(3))))
+               for m in re.finditer(r"^ {2}(?:-\w [A-Z_]+, )?(--[\w-]+) ([A-Z_]+)\s+(.*(?:\n {6,}.*)*)", opts, flags=re.M)
+               if _FILEISH.search(m.group(3)) and not _NOT_FILE.search(m.group(3))]
+    usage = " ".join(text.split("\n\n", 1)[0].split())
+    while re.search(r"\[[^\[\]]*\]", usage):  # drop optional groups, innermost first
+        usage = re.sub(r"\[[^\[\]]*\]", "", usage)
+    # Required options: -o OUTPUT gets a fresh path in the cwd; --kind {a,b} gets its first choice.
+    required = re.findall(r"(-{1,2}[\w-]+) ([A-Z_]+|\{[^}]*\})", usage)
+
+    def req(skip: str = "") -> list[str]:
+        return [a for opt, metavar in required if metavar != skip
+                for a in (opt, metavar[1:].split(",")[0].rstrip("}") if metavar.startswith("{") else "{out}")]
+
+    out = [("positional", ["{file}" for _ in positionals] + req(), writes)]  # new/demo: an output path
+    base = ["{job}" if command != "new" else "{file}"] * len(positionals)
+    for opt, metavar, is_output in options:
+        out.append((opt, base + req(metavar) + [opt, "{file}"], is_output))
     return out
 
 
 COMMANDS = _subcommands()
-CLI_CASES = [(cmd, label, args) for cmd in COMMANDS for label, args in _variants(cmd)]
+CLI_CASES = [(cmd, label, args, is_out) for cmd in COMMANDS for label, args, is_out in _variants(cmd)]
+
+
+@pytest.fixture(scope="module")
+def blank_job(tmp_path_factory) -> Path:
+    """The job given beside a corpus file in an option: ``benchbook new`` output (fast to read, and wrong)."""
+    folder = tmp_path_factory.mktemp("job")
+    try:
+        from benchbook.sheets.intake import write_blank_job
+    except ImportError:
+        return REPO / "samples" / "offgrid-cabin.xlsx"
+    return write_blank_job(folder / "blank-job.xlsx")
 
 
 def test_subcommands_were_discovered():
     assert "size" in COMMANDS and "new" in COMMANDS  # the two the skeleton ships; later ones join on their own
 
 
-@pytest.mark.parametrize("command,label,args", CLI_CASES, ids=[f"{c}-{lab}" for c, lab, _ in CLI_CASES])
-def test_every_command_on_every_corpus_file(command, label, args, corpus_copy, tmp_path):
-    files = [corpus_copy / c.name for c in CASES]
+@pytest.mark.parametrize("command,label,args,is_output", CLI_CASES, ids=[f"{c}-{lab}" for c, lab, _a, _o in CLI_CASES])
+def test_every_command_on_every_corpus_file(command, label, args, is_output, corpus_copy, blank_job, tmp_path):
+    cases = [c for c in CASES if c.name in OUTPUT_SAMPLE] if is_output else CASES
+    files = [corpus_copy / c.name for c in cases]
     before = {f.name: _sha(f) for f in files}
+    job_hash = _sha(blank_job)
+    args = [a.replace("{job}", str(blank_job)) for a in args]
     results = _run_worker("cli", files, [command, *args], tmp_path)
+    assert _sha(blank_job) == job_hash
     after = {f.name: _sha(f) for f in files}
     assert after == before, f"benchbook {command} modified an input file"
     missing = [r for r in results.values() if r.get("rc") == 1 and "No module named 'benchbook." in r["stderr"]]
     if len(missing) == len(files):
         pytest.skip(f"benchbook {command}: its module is not written yet ({missing[0]['stderr'].strip()[:200]})")
     failures = []
-    for c in CASES:
+    for c in cases:
         rec = results[c.name]
         if rec.get("died"):
             failures.append(f"{c.name}: benchbook {command} hung or crashed (rc {rec['returncode']}): "
                             f"{rec['stderr'][-600:]}")
             continue
-        rc, err = rec["rc"], rec["stderr"]
-        if "Traceback" in err or "Traceback" in rec["stdout"]:
+        rc, err, out = rec["rc"], rec["stderr"], rec["stdout"]
+        if "Traceback" in err or "Traceback" in out:
             failures.append(f"{c.name}: traceback shown: {err[-600:]}")
         if rc == 2:
-            if not err.startswith("Error: ") and not err.startswith("usage:"):
-                failures.append(f"{c.name}: exit 2 without 'Error: ...': {err[:300]}")
+            report = not err and out.startswith(c.name)  # a checking command's report of what is wrong
+            if not (err.startswith("Error: ") or report):
+                failures.append(f"{c.name}: exit 2 without 'Error: ...' (or a report naming the file): "
+                                f"{(err or out)[:300]}")
         elif rc != 0:
             failures.append(f"{c.name}: exit {rc} (an internal error is a bug): {err[:400]}")
-        if c.expect == "refuse" and rc != 2:
-            failures.append(f"{c.name}: benchbook {command} exit {rc} on a file the gate refuses")
-        if c.expect == "refuse" and label == "positional" and command != "new" and rc == 2 and c.phrase not in err:
+        if (c.expect == "refuse" or is_output) and rc != 2:
+            failures.append(f"{c.name}: benchbook {command} exit {rc} on a file the gate refuses (or an existing output)")
+        if c.expect == "refuse" and label == "positional" and not is_output and rc == 2 and c.phrase not in err:
             failures.append(f"{c.name}: the error does not say {c.phrase!r}: {err[:300]}")
     leftovers = [p.name for p in tmp_path.iterdir()]
     assert not failures, "\n".join(failures)
@@ -309,7 +342,8 @@ def _cli(path: Path, command: list[str]) -> dict:
 
     from benchbook.cli import main
 
-    argv = [a.replace("{file}", str(path)) for a in command]
+    fresh = Path.cwd() / f"out-{path.stem}{path.suffix if path.suffix in ('.xlsx', '.xlsm') else '.xlsx'}"
+    argv = [a.replace("{file}", str(path)).replace("{out}", str(fresh)) for a in command]
     out, err = io.StringIO(), io.StringIO()
     with redirect_stdout(out), redirect_stderr(err):
         try:
@@ -319,7 +353,7 @@ def _cli(path: Path, command: list[str]) -> dict:
         except BaseException as exc:  # noqa: BLE001 - escaping main is a bug; show it
             traceback.print_exception(exc)
             rc = 1
-    return {"rc": rc, "stdout": out.getvalue()[-2000:], "stderr": err.getvalue()[-4000:]}
+    return {"rc": rc, "stdout": out.getvalue()[:4000], "stderr": err.getvalue()[:4000]}
 
 
 def _worker(argv: list[str]) -> int:

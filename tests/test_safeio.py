@@ -38,7 +38,7 @@ from benchbook.sheets import safeio
 REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(REPO / "tests"))
 from corpus.make_corpus import (  # noqa: E402
-    FILES, MAIN, REL, XML_HEAD, Sheet, book, cfb_bytes, laughs, sst_xml, valid_xlsx, zip_bytes)
+    FILES, MAIN, REL, XML_HEAD, Sheet, book, cfb_bytes, sst_xml, valid_xlsx, zip_bytes)
 
 
 def _sha(p: Path) -> str:
