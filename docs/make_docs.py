@@ -20,6 +20,7 @@ ORDER = ("demo", "new", "size", "compare", "quote", "template-check", "fieldshee
 
 def contract_doc() -> str:
     from benchbook.sheets import names as N
+    from benchbook.sheets.contract_check import contract_markdown
 
     head = ("# The template contract\n\n"
             "Generated from `benchbook/sheets/names.py` by `docs/make_docs.py`; do not edit by hand.\n\n"
@@ -27,7 +28,7 @@ def contract_doc() -> str:
             "and tabular data through **Excel tables** with the headers below. A firm may move, restyle or "
             "rebrand its templates freely: as long as these names and headers exist, benchbook reads and fills "
             "them. `benchbook template-check FILE --kind KIND` lists anything missing.\n")
-    return head + "\n" + "\n\n".join(N.contract_markdown(k) for k in N.CONTRACTS) + "\n"
+    return head + "\n" + "\n\n".join(contract_markdown(k) for k in N.CONTRACTS) + "\n"
 
 
 def commands_doc() -> str:

@@ -6,6 +6,7 @@ from types import SimpleNamespace
 import openpyxl
 import pytest
 
+from benchbook.sheets.contract_check import check_template
 from benchbook.errors import FileFormatError, SpecError
 from benchbook.model.catalog import DEFAULT_CATALOG
 from benchbook.model.readings import FieldBank, block_ids_for
@@ -35,8 +36,8 @@ def readings_sheet(tmp_path_factory):
 
 def test_contract_holds(capacity_sheet, readings_sheet):
     # the names.py checker (another module) agrees that the sheets fulfil their contracts, strictly
-    assert N.check_template(capacity_sheet, "capacity-test", strict=True) == []
-    assert N.check_template(readings_sheet, "readings", strict=True) == []
+    assert check_template(capacity_sheet, "capacity-test", strict=True) == []
+    assert check_template(readings_sheet, "readings", strict=True) == []
 
 
 def test_capacity_sheet_names_and_log(capacity_sheet):
@@ -102,7 +103,7 @@ def test_readings_columns_follow_chemistry(tmp_path, readings_sheet):
     write_field_sheet(_bank("IL-12A-100", series=4, parallel=1), "readings", agm)
     heads = [c.value for c in openpyxl.load_workbook(agm)["Readings"][4] if c.value]
     assert "Specific gravity [-]" not in heads and "Float voltage [V]" in heads
-    assert N.check_template(agm, "readings") == []  # the SG columns are optional in the contract
+    assert check_template(agm, "readings") == []  # the SG columns are optional in the contract
 
 
 def test_text_is_never_a_formula_and_outputs_are_safe(tmp_path):

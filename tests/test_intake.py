@@ -420,7 +420,7 @@ def test_libreoffice_keeps_names_tables_and_values(tmp_path):
     from office import require_office
 
     require_office()
-    from benchbook.sheets.names import check_template
+    from benchbook.sheets.contract_check import check_template
     from benchbook.sheets.office import convert
 
     src = REPO / "samples" / "offgrid-cabin.xlsx"

@@ -23,8 +23,9 @@ from openpyxl.workbook.defined_name import DefinedName
 from benchbook.errors import TemplateError
 from benchbook.model.job import DutyPeriod, Economics, Generator, Job
 from benchbook.sheets import names
-from benchbook.sheets.names import (INTAKE, check_template, closest, contract, contract_markdown, expected_text,
-                                    normalize_header, template_bytes, template_path)
+from benchbook.sheets.contract_check import check_template, contract_markdown
+from benchbook.sheets.names import (INTAKE, closest, contract, expected_text, normalize_header, template_bytes,
+                                    template_path)
 from benchbook.sheets.tables import coerce
 
 TEMPLATE = template_path("intake")

@@ -14,6 +14,7 @@ import pytest
 from openpyxl.styles import Font, PatternFill
 from openpyxl.utils.cell import get_column_letter, range_boundaries
 
+from benchbook.sheets.contract_check import check_template
 from benchbook.errors import FileFormatError, InputError, ModelError, SpecError, TemplateError
 from benchbook.model.bom import BomAllowances, bill_of_materials, quote_totals
 from benchbook.model.catalog import DEFAULT_CATALOG
@@ -136,7 +137,7 @@ def test_bom_rejects_bad_input():
 # ---- the template --------------------------------------------------------------------------
 
 def test_shipped_template_fulfils_the_contract_and_is_current(tmp_path):
-    assert N.check_template(TEMPLATE, "quote", strict=True) == []
+    assert check_template(TEMPLATE, "quote", strict=True) == []
     fresh = tmp_path / "fresh.xlsx"
     build_quote_template().save(fresh)
     a, b = openpyxl.load_workbook(TEMPLATE), openpyxl.load_workbook(fresh)
@@ -340,7 +341,7 @@ def move_and_restyle(src: Path, dst: Path, drow: int = 3, dcol: int = 2, title: 
 def test_restyled_and_moved_template_is_filled_by_name(tmp_path, options):
     moved = tmp_path / "firm.xlsx"
     move_and_restyle(TEMPLATE, moved)
-    assert N.check_template(moved, "quote") == []
+    assert check_template(moved, "quote") == []
     job = make_job()
     rec = make_record(option_with(options, 4, 3))
     res = write_quote(job, rec, tmp_path / "q.xlsx", template=moved, terms=TERMS)

@@ -440,13 +440,15 @@ def _page_setup(wb, paper: str, number: str, site: str, date: _dt.date) -> None:
 def quote_template_problems(template: str | Path) -> list[str]:
     """Every way ``template`` breaks the quote contract, one sentence each (empty when usable).
 
-    :func:`benchbook.sheets.names.check_template` (names and table headers),
+    :func:`benchbook.sheets.contract_check.check_template` (names and table headers),
     plus what the filler needs of the areas: each ``*_first``/``*_last`` pair
     on one sheet with the last cell below and right of the first, an
     arrangement area at least 5 columns wide, and a ``QuoteItems`` table with
     room for the bill of materials (at least 10 lines).
     """
-    problems = N.check_template(template, "quote")
+    from benchbook.sheets.contract_check import check_template  # noqa: PLC0415
+
+    problems = check_template(template, "quote")
     if problems:
         return problems
     wb = load_openpyxl(template)

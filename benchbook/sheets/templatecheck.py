@@ -5,6 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Optional
 
+from benchbook.sheets import contract_check as CC
 from benchbook.sheets import names as N
 from benchbook.sheets import tables as T
 
@@ -20,8 +21,8 @@ def template_check(path: str | Path, kind: Optional[str] = None, strict: bool = 
     """
     with T.Book(path) as book:
         wb, tables = book._wb, book.tables
-        contract = N.contract(kind) if kind else N._detect_kind(wb, tables)
-        problems = list(N._check(wb, tables, contract.kind, strict))
+        contract = N.contract(kind) if kind else CC.detect_kind(wb, tables)
+        problems = list(CC.check_loaded(wb, tables, contract.kind, strict))
     if contract.kind == "quote":
         from benchbook.sheets.quote import quote_template_problems
 
