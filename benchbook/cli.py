@@ -25,6 +25,29 @@ def _add_force(p: argparse.ArgumentParser) -> None:
     p.add_argument("--force", action="store_true", help="overwrite an existing output file")
 
 
+def _limits_parent() -> argparse.ArgumentParser:
+    """Options that override the input-safety limits (every command that reads a workbook)."""
+    p = argparse.ArgumentParser(add_help=False)
+    g = p.add_argument_group("input-safety limits (see README, Input safety)")
+    g.add_argument("--max-file-mb", type=float, metavar="MB", help="largest input file on disk (default 512)")
+    g.add_argument("--max-unpacked-mb", type=float, metavar="MB", help="largest unpacked size of a workbook (default 1024)")
+    g.add_argument("--max-members", type=int, metavar="N", help="most parts in a workbook archive (default 10000)")
+    g.add_argument("--max-ratio", type=float, metavar="R", help="highest compression ratio of a part (default 200)")
+    g.add_argument("--max-cells", type=int, metavar="N", help="most cells a sheet may span (default 20000000)")
+    return p
+
+
+_LIMIT_OPTIONS = ("max_file_mb", "max_unpacked_mb", "max_members", "max_ratio", "max_cells")
+
+
+def _apply_limits(args: argparse.Namespace) -> None:
+    given = {k: getattr(args, k, None) for k in _LIMIT_OPTIONS}
+    if any(v is not None for v in given.values()):
+        from benchbook.sheets import safeio
+
+        safeio.set_limits(safeio.ArchiveLimits.from_options(**given))
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="benchbook",
@@ -32,6 +55,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"benchbook {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    limits = _limits_parent()
 
     p = sub.add_parser("demo", help="run the whole job on an invented scenario",
                        description="Size, compare and quote two invented jobs, issue field sheets, fill them "
@@ -47,7 +71,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_force(p)
     p.set_defaults(handler=_cmd_new)
 
-    p = sub.add_parser("size", help="turn a job workbook into ranked bank options",
+    p = sub.add_parser("size", parents=[limits], help="turn a job workbook into ranked bank options",
                        description="Read a job workbook and print ranked bank options.")
     p.add_argument("job", help="filled-in job workbook (.xlsx)")
     p.add_argument("--catalog", help="battery catalog: a workbook with a Batteries table, or a CSV with its headers")
@@ -58,7 +82,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "unserved energy; price; weight (default cost)")
     p.set_defaults(handler=_cmd_size)
 
-    p = sub.add_parser("quote", help="fill the quote template for one option",
+    p = sub.add_parser("quote", parents=[limits], help="fill the quote template for one option",
                        description="Evaluate the job and fill a quote workbook for the option of the given rank.")
     p.add_argument("job", help="filled-in job workbook (.xlsx)")
     p.add_argument("--option", type=int, default=1, help="rank of the option to quote, as `size` lists it (default 1)")
@@ -70,7 +94,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_force(p)
     p.set_defaults(handler=_cmd_quote)
 
-    p = sub.add_parser("compare", help="write the side-by-side comparison workbook",
+    p = sub.add_parser("compare", parents=[limits], help="write the side-by-side comparison workbook",
                        description="Evaluate the job and write a comparison workbook: options as columns, "
                                    "native charts, and one sheet per option with its hourly year.")
     p.add_argument("job", help="filled-in job workbook (.xlsx)")
@@ -83,7 +107,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_force(p)
     p.set_defaults(handler=_cmd_compare)
 
-    p = sub.add_parser("fieldsheet", help="write a data-entry sheet for a field crew",
+    p = sub.add_parser("fieldsheet", parents=[limits], help="write a data-entry sheet for a field crew",
                        description="Write a capacity-test or routine-readings sheet for one bank, pre-filled with "
                                    "its identity and every block numbered by string and position.")
     p.add_argument("job", nargs="?", help="job workbook (.xlsx); or use --from-quote")
@@ -98,7 +122,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_force(p)
     p.set_defaults(handler=_cmd_fieldsheet)
 
-    p = sub.add_parser("check", help="check filled field sheets against the model",
+    p = sub.add_parser("check", parents=[limits], help="check filled field sheets against the model",
                        description="Read filled capacity-test or readings sheets (a file or a folder), validate "
                                    "every entry, apply the IEEE 450 and maintenance checks, compare with the "
                                    "model, and write checked copies with a Findings sheet.")
@@ -111,7 +135,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_force(p)
     p.set_defaults(handler=_cmd_check)
 
-    p = sub.add_parser("template-check", help="check a template against the template contract",
+    p = sub.add_parser("template-check", parents=[limits], help="check a template against the template contract",
                        description="List every missing or malformed defined name and table header of a "
                                    "template. Exit 0 when it is usable.")
     p.add_argument("template", help="template workbook (.xlsx)")
@@ -216,6 +240,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     try:
+        _apply_limits(args)
         return handler(args)
     except BenchbookError as exc:
         print(f"Error: {exc}", file=sys.stderr)

@@ -109,3 +109,16 @@ def test_template_check_lists_every_missing_name(tmp_path):
     assert r.stderr.startswith("Error: firm-quote.xlsx: ")
     assert "defined name quote_grand_total" in r.stderr and "defined name quote_site" in r.stderr
     assert hashlib.sha256(broken.read_bytes()).hexdigest() == before
+
+
+def test_input_safety_limits_can_be_overridden_and_are_named(tmp_path):
+    from pathlib import Path
+
+    sample = Path(__file__).resolve().parents[1] / "samples" / "offgrid-cabin.xlsx"
+    r = run("size", str(sample), "--max-unpacked-mb", "0.01")
+    assert r.returncode == 2
+    assert "max_uncompressed_bytes" in r.stderr and "--max-unpacked-mb" in r.stderr
+    r = run("size", str(sample), "--max-ratio", "-3")
+    assert r.returncode == 2 and "--max-ratio: found -3; expected a positive number" in r.stderr
+    r = run("size", str(sample), "--max-unpacked-mb", "2048", "--json")
+    assert r.returncode == 0, r.stderr
