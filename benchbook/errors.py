@@ -63,9 +63,14 @@ class InputError(BenchbookError):
         return self.sheet or self.cell or "input"
 
     @property
-    def message(self) -> str:
+    def detail(self) -> str:
+        """The message without its ``Sheet!Cell:`` prefix (for lists that show the cell beside it)."""
         what = f"{self.what}: " if self.what else ""
-        return f"{self.where}: {what}found {_show(self.value)}; expected {self.expected}"
+        return f"{what}found {_show(self.value)}; expected {self.expected}"
+
+    @property
+    def message(self) -> str:
+        return f"{self.where}: {self.detail}"
 
     def __str__(self) -> str:  # pragma: no cover - trivial
         return self.message

@@ -255,7 +255,7 @@ def check_file(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,
     if out is not None and Path(out).resolve() == src.resolve():
         raise FileFormatError(f"{out}: is the input file; give another name for the checked copy")
     res = read_with_notes(src)
-    findings = [Finding(e.where, "error", e.message, "bad-entry") for e in res.errors] + list(res.notes)
+    findings = [Finding(e.where, "error", e.detail, "bad-entry") for e in res.errors] + list(res.notes)
     rep = CheckReport(src.name, res.kind, "pass", [], bank=res.bank,
                       date=res.date.isoformat() if res.date else None)
     rec = res.record
