@@ -252,3 +252,31 @@ def test_two_processes_in_one_folder_never_clobber(tmp_path):
             assert _marker(tmp_path / f"{me}-{i}.xlsx") == f"{me}-{i}"
     assert re.fullmatch(r"[AB]-\d+", _marker(tmp_path / "shared.xlsx"))  # one whole version, never a mix
     assert not [p.name for p in tmp_path.iterdir() if p.name.endswith(".part")]
+
+
+def test_sigkill_of_benchbook_compare_leaves_the_earlier_output_intact(tmp_path):
+    """The real command: `benchbook compare` killed while it writes its hourly sheets."""
+    sample = Path(__file__).resolve().parents[1] / "samples" / "offgrid-cabin.xlsx"
+    out = tmp_path / "options.xlsx"
+    first = subprocess.run([sys.executable, "-m", "benchbook", "compare", str(sample), "-o", str(out),
+                            "--top", "1", "--no-hourly"], capture_output=True, text=True, timeout=600)
+    assert first.returncode == 0, first.stderr
+    before = hashlib.sha256(out.read_bytes()).hexdigest()
+    proc = subprocess.Popen([sys.executable, "-m", "benchbook", "compare", str(sample), "-o", str(out), "--force"],
+                            stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    try:
+        deadline = time.monotonic() + 600  # a watchdog, not a timing: we wait for the write to begin
+        while not list(tmp_path.glob(".options.*.part")) and proc.poll() is None and time.monotonic() < deadline:
+            time.sleep(0.02)
+        assert proc.poll() is None, "compare finished before it could be killed mid-write"
+        assert list(tmp_path.glob(".options.*.part")), "no temporary output appeared"
+        proc.send_signal(signal.SIGKILL)
+        proc.wait(timeout=60)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert proc.returncode == -signal.SIGKILL
+    assert hashlib.sha256(out.read_bytes()).hexdigest() == before  # the earlier output, untouched
+    with zipfile.ZipFile(out) as zf:
+        assert zf.testzip() is None
+    assert sorted(p.name for p in tmp_path.iterdir() if not p.name.startswith(".")) == ["options.xlsx"]
