@@ -111,7 +111,7 @@ def build_parser() -> argparse.ArgumentParser:
                        description="Write a capacity-test or routine-readings sheet for one bank, pre-filled with "
                                    "its identity and every block numbered by string and position.")
     p.add_argument("job", nargs="?", help="job workbook (.xlsx); or use --from-quote")
-    p.add_argument("--from-quote", dest="quote", help="a quote written by `benchbook quote`")
+    p.add_argument("--from-quote", dest="quote", help="a quote workbook (.xlsx) written by `benchbook quote`")
     p.add_argument("--option", type=int, default=1, help="rank of the option, as `size` lists it (default 1)")
     p.add_argument("--kind", required=True, choices=("capacity-test", "readings"), help="which sheet")
     p.add_argument("--bank-id", default="BANK-1", help="the bank's name on site (default BANK-1)")

@@ -188,7 +188,9 @@ def _subcommands() -> list[str]:
 
 _FILEISH = re.compile(r"workbook|file|\.xlsx|csv|catalog|template|sheet|folder|path", re.I)
 _OUTPUT = re.compile(r"output|write|create|save", re.I)
-_NOT_FILE = re.compile(r"\bprocesses\b|\bnumber of\b|how many|\brank\b", re.I)
+# Numeric limits (--max-file-mb MB "largest input file on disk (default 512)") mention files but take numbers.
+_NOT_FILE = re.compile(r"\bprocesses\b|\bnumber of\b|how many|\brank\b|\blargest\b|\bmost\b|\bhighest\b"
+                       r"|\(default [\d.]+\)", re.I)
 # An output option pointed at an existing corpus file must refuse to overwrite it; that is the same
 # for every file, so it runs on a few (the command may do its whole computation first).
 OUTPUT_SAMPLE = ("empty.xlsx", "valid-job.xlsx", "zip-bomb-ratio.xlsx", "macro-vba.xlsm")
