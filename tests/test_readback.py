@@ -137,6 +137,34 @@ def test_readings_read_back_and_equalize(work):
     assert rep.status == "attention" and rep.exit_code == 0
 
 
+def test_readings_with_bad_entries_still_check_the_rest_of_the_bank(work, tmp_path):
+    """A bad entry fails the sheet, but the other blocks are still checked (the bad value left out)."""
+    rows = work["rows"]
+    # S1-02's float voltage typed as the string total; S1-04's temperature as text; S1-07 stays the weak cell.
+    p = edit(work["dir"] / "rd.xlsx", tmp_path / "rd-bad.xlsx",
+             {("Readings", "B6"): 53.6, ("Readings", "E8"): "warm"})
+    res = read_with_notes(p)
+    assert res.record is None and sorted(e.where for e in res.errors) == ["Readings!B6", "Readings!E8"]
+    part = res.partial
+    assert isinstance(part, ReadingsRecord) and len(part.blocks) == 24
+    assert math.isnan(part.blocks[1].float_voltage_v) and math.isnan(part.blocks[3].temp_c)
+    assert part.blocks[0].float_voltage_v == rows[0]["Float voltage [V]"]  # the good entries are as typed
+    assert part.blocks[1].specific_gravity == rows[1]["Specific gravity [-]"]
+    rep = check_file(p)
+    assert rep.status == "fail" and rep.exit_code != 0  # bad entries still fail the sheet
+    codes = [f.code for f in rep.findings]
+    assert codes.count("bad-entry") == 2 and "partial-check" in codes
+    note = next(f for f in rep.findings if f.code == "partial-check")
+    assert "without the 2 bad entries" in note.message
+    # the weak cell is still found, on its own row, and named for equalizing
+    assert [f.cell for f in rep.findings if f.code == "equalize-low-float"] == ["Readings!B11"]
+    assert rep.extra["equalize"] == ["S1-07"]
+    # a capacity test is one measurement: no partial record
+    sheet, ref = cell_of(work["dir"] / "ct.xlsx", "test_current_a")
+    ct = read_with_notes(edit(work["dir"] / "ct.xlsx", tmp_path / "ct-bad.xlsx", {(sheet, ref): "lots"}))
+    assert ct.record is None and ct.partial is None and ct.errors
+
+
 # ---- nothing lost ------------------------------------------------------------------------------
 def test_input_unchanged_and_checked_copy_keeps_every_value(work, tmp_path):
     src = edit(work["dir"] / "ct.xlsx", tmp_path / "in.xlsx", {("Log", "D8"): "13,1"})

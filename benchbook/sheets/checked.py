@@ -259,6 +259,13 @@ def check_file(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,
     rep = CheckReport(src.name, res.kind, "pass", [], bank=res.bank,
                       date=res.date.isoformat() if res.date else None)
     rec = res.record
+    if rec is None and res.partial is not None:
+        # A readings sheet with bad entries: check the rest of the bank, the bad entries left out.
+        rec = res.partial
+        findings.append(Finding(_sheet_of(res.errors), "warning",
+                                f"The checks below were run without the {len(res.errors)} bad "
+                                f"entr{'y' if len(res.errors) == 1 else 'ies'} (counted as readings not taken); "
+                                "correct them and run check again.", "partial-check"))
     if rec is not None:
         base = None
         if baseline is not None:
@@ -285,6 +292,11 @@ def check_file(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,
         write_checked_copy(src, Path(out), rep, force=force, trend=list(trend))
         rep.output = str(out)
     return rep
+
+
+def _sheet_of(errors) -> str:
+    """The first error's ``Sheet!A1`` (where the partial-check note sits)."""
+    return errors[0].where if errors else ""
 
 
 def check_path(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,

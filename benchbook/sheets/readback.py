@@ -162,7 +162,14 @@ FieldRecord = Union[CapacityTestRecord, ReadingsRecord]
 
 @dataclass(frozen=True)
 class ReadResult:
-    """A read with everything it found: the record (None when there were errors), errors and notes."""
+    """A read with everything it found: the record (None when there were errors), errors and notes.
+
+    ``partial`` is a readings record built from the entries that were good
+    (a bad entry counts as a reading not taken) when a readings sheet had
+    errors; ``None`` otherwise. Per-block readings are independent of each
+    other, so the rest of the bank can still be checked; a capacity test is
+    one measurement and has no partial record.
+    """
 
     record: Optional[FieldRecord]
     errors: tuple[InputError, ...]
@@ -170,6 +177,7 @@ class ReadResult:
     kind: str
     bank: Optional[BankIdentity] = None
     date: Optional[_dt.date] = None
+    partial: Optional[FieldRecord] = None
 
 
 # ---- public ------------------------------------------------------------------------------------
@@ -195,11 +203,13 @@ def read_with_notes(path: str | Path) -> ReadResult:
         kind = sheet_kind(book)
         from benchbook.sheets.readback_sheets import read_capacity, read_readings  # noqa: PLC0415 - they import us
 
-        record = read_capacity(rd) if kind == "capacity-test" else read_readings(rd)
+        record = read_capacity(rd) if kind == "capacity-test" else read_readings(rd, partial=True)
         if record is not None:
             record = _with_notes(record, tuple(rd.notes))
-        return ReadResult(record if not rd.problems else None, tuple(rd.problems.errors), tuple(rd.notes), kind,
-                          rd.bank, rd.date)
+        if rd.problems:
+            partial = record if kind == "readings" else None
+            return ReadResult(None, tuple(rd.problems.errors), tuple(rd.notes), kind, rd.bank, rd.date, partial)
+        return ReadResult(record, (), tuple(rd.notes), kind, rd.bank, rd.date)
 
 
 def _with_notes(record: FieldRecord, notes: tuple[Finding, ...]) -> FieldRecord:

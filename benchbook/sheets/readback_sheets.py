@@ -9,6 +9,7 @@ from __future__ import annotations
 import itertools
 import math
 import re
+from dataclasses import replace
 from typing import Any, Optional
 
 import numpy as np
@@ -280,7 +281,14 @@ def _ratings(rd: _Reader, book: RawBook) -> tuple[tuple[float, float], ...]:
 
 
 # ---- the readings sheet ------------------------------------------------------------------------
-def read_readings(rd: _Reader) -> Optional[ReadingsRecord]:
+def read_readings(rd: _Reader, partial: bool = False) -> Optional[ReadingsRecord]:
+    """The readings record; ``None`` when an entry is bad, unless ``partial`` (then bad entries are left out).
+
+    With ``partial=True`` a sheet with bad entries still gives a record when
+    its identity and columns could be read: a bad value counts as a reading
+    not taken (NaN), and a row with a bad block id is left out. The errors
+    stay in ``rd.problems`` either way.
+    """
     book, c = rd.book, N.contract("readings")
     vals, where = _names(rd, c)
     bank = _identity(vals)
@@ -391,6 +399,7 @@ def read_readings(rd: _Reader) -> Optional[ReadingsRecord]:
         h2, r2 = max(kinds_used.items(), key=lambda kv: kv[1])
         rd.error(sheet, a1(cols[h2], r2), grid[r2 - 1][cols[h2] - 1], "one kind of ohmic reading for the whole bank "
                  "(internal resistance or conductance)", h2)
+        out_rows = [replace(b, ohmic_value=NAN) for b in out_rows]  # mixed kinds: none can be compared
     if not out_rows:
         rd.error(sheet, a1(cols["Block"], hrow + 1), "", "one row of readings per block (none were entered)",
                  "BlockReadings")
@@ -401,6 +410,7 @@ def read_readings(rd: _Reader) -> Optional[ReadingsRecord]:
             if math.isfinite(t) and not -10 <= t <= 80:
                 rd.error(sheet, a1(cols["Temperature [°C]"], rows[j]), b.temp_c, "a temperature from −10 to 80 °C",
                          f"Temperature of {b.block_id}")
+                conv[j] = NAN  # a bad entry is a reading not taken
         out_rows = [BlockReading(b.block_id, b.float_voltage_v, b.specific_gravity, float(t), b.ohmic_value,
                                  b.connection_uohm, b.electrolyte_level, b.remarks) for b, t in zip(out_rows, conv)]
     expected_ids = [f"S{s}-{p:0{width}d}" for s in range(1, bank.parallel + 1) for p in range(1, series + 1)]
@@ -408,7 +418,7 @@ def read_readings(rd: _Reader) -> Optional[ReadingsRecord]:
     if missing and out_rows:
         rd.note(sheet, a1(cols["Block"], hrow), "warning", f"No readings for {len(missing)} block(s): "
                 f"{', '.join(missing[:12])}{' …' if len(missing) > 12 else ''}.", "block-missing")
-    if rd.problems:
+    if rd.problems and (not partial or not out_rows):
         return None
     kind = "conductance" if "Conductance [S]" in kinds_used else "resistance"
     ohm_col = cols.get("Conductance [S]" if kind == "conductance" else "Internal resistance [mΩ]", 0)
