@@ -165,6 +165,31 @@ def test_readings_with_bad_entries_still_check_the_rest_of_the_bank(work, tmp_pa
     assert ct.record is None and ct.partial is None and ct.errors
 
 
+def test_non_finite_numbers_in_the_log_are_refused(work, tmp_path):
+    """NaN, inf and -inf stored as numbers (not text) in log cells are bad entries, each at its cell."""
+    src = work["dir"] / "ct.xlsx"
+    wb = openpyxl.load_workbook(src)
+    ws = wb["Log"]
+    ws["C6"].value, ws["F8"].value, ws["B10"].value = 1.0, 2.0, 3.0  # placeholders, replaced in the XML below
+    wb.save(tmp_path / "tmp.xlsx")
+    dst = tmp_path / "nonfinite.xlsx"
+    with zipfile.ZipFile(tmp_path / "tmp.xlsx") as zin, zipfile.ZipFile(dst, "w", zipfile.ZIP_DEFLATED) as zout:
+        sheet_part = None
+        for item in zin.infolist():
+            data = zin.read(item.filename)
+            if item.filename.startswith("xl/worksheets/sheet") and b'r="C6"' in data and b'r="F8"' in data:
+                for ref, text in ((b"C6", b"NaN"), (b"F8", b"-INF"), (b"B10", b"INF")):
+                    data = re.sub(rb'(<c r="' + ref + rb'"[^>]*>)<v>[^<]*</v>', rb"\1<v>" + text + rb"</v>", data)
+                sheet_part = item.filename
+            zout.writestr(item, data)
+    assert sheet_part is not None
+    res = read_with_notes(dst)
+    assert res.record is None
+    where = sorted(e.where for e in res.errors)
+    assert where == ["Log!B10", "Log!C6", "Log!F8"], res.errors
+    assert all("finite" in e.message for e in res.errors)
+
+
 # ---- nothing lost ------------------------------------------------------------------------------
 def test_input_unchanged_and_checked_copy_keeps_every_value(work, tmp_path):
     src = edit(work["dir"] / "ct.xlsx", tmp_path / "in.xlsx", {("Log", "D8"): "13,1"})

@@ -293,12 +293,17 @@ def _numeric_column(rd: _Reader, sheet: str, values: list[Any], rows: Sequence[i
     checks of plain numbers are the caller's.
     """
     if isinstance(values, np.ndarray):
-        return np.array(values, dtype=float)
-    if set(map(type, values)) <= {float}:
-        return np.array(values, dtype=float)
+        arr = np.array(values, dtype=float)
+        if np.isfinite(arr).all():
+            return arr
+        values = arr.tolist()
+    elif set(map(type, values)) <= {float}:
+        arr = np.array(values, dtype=float)
+        if np.isfinite(arr).all():
+            return arr
     out = np.full(len(values), NAN)
     for i, v in enumerate(values):
-        if v.__class__ is float:
+        if v.__class__ is float and math.isfinite(v):
             out[i] = v
         elif not _blank(v):
             x = rd.number(sheet, rows[i], col, v, what, lo, hi, unit, accept, expected)
