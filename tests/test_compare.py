@@ -195,3 +195,20 @@ def test_summary_has_one_column_per_option(tmp_path_factory, records, k):
     ws = openpyxl.load_workbook(out)["Summary"]
     header = [ws.cell(6, c).value for c in range(2, 2 + k + 1)]
     assert header[:k] == [f"#{r.rank} {r.option.spec.model}" for r in records[:k]] and header[k] is None
+
+
+def test_best_marks_only_options_that_meet_the_requirement(tmp_path, records):
+    """An undersized option is never marked best (it would be cheapest because it is too small)."""
+    job = make_job()
+    recs = records[:3]
+    under = replace(recs[1], option=replace(recs[1].option, feasible=False))
+    out = write_comparison(job, [recs[0], under, recs[2]], tmp_path / "c.xlsx", hourly=False)
+    ws = openpyxl.load_workbook(out)["Summary"]
+    ranges = [str(cf.sqref) for cf in ws.conditional_formatting]
+    assert ranges and all(not re.fullmatch(r"C\d+", r) and ":" not in r for r in ranges), ranges
+    rules = [rule.formula[0] for cf in ws.conditional_formatting for rule in cf.rules]
+    assert all("$C$" not in f for f in rules)  # the undersized option's column takes no part in the best
+    # all three meet it: one rule per row over the whole span, as before
+    out2 = write_comparison(job, recs, tmp_path / "c2.xlsx", hourly=False)
+    ws2 = openpyxl.load_workbook(out2)["Summary"]
+    assert all(re.fullmatch(r"B\d+:D\d+", str(cf.sqref)) for cf in ws2.conditional_formatting)

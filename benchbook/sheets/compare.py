@@ -4,7 +4,7 @@
 (every sheet is written strictly row by row):
 
 - ``Summary``: options as columns, metrics as rows (units in the row labels),
-  the best value of each row marked by conditional formatting, derived figures
+  the best value of each row (among options that meet the requirement) marked by conditional formatting, derived figures
   (blocks, total cost, cost per delivered kWh and its breakdown, floor loading,
   vent opening) as live formulas, and four native charts: cost per delivered
   kWh by option, usable energy against parallel strings for the leading
@@ -300,8 +300,8 @@ def _write_all(wb, job: Any, records: list, hourly: bool, profile: Any) -> None:
     ws.write_string(0, 0, "Bank options compared", f["title"])
     ws.write_string(1, 0, f"Site: {job.site}", f["sub"])
     ws.write_string(2, 0, f"Client: {job.client}", f["sub"])
-    ws.write_string(3, 0, "Engineering estimates for comparison; green marks the best value of a row. "
-                          "See the Notes sheet for the methods and the safety cautions.", f["note"])
+    ws.write_string(3, 0, "Engineering estimates for comparison; green marks the best value of a row among the options "
+                          "that meet the requirement. See the Notes sheet for the methods and the safety cautions.", f["note"])
     head = 5
     ws.set_row(head, 30)
     ws.write_string(head, 0, "Option (rank)", f["head"])
@@ -318,6 +318,7 @@ def _write_all(wb, job: Any, records: list, hourly: bool, profile: Any) -> None:
         layout.append(("metric", m))
         r += 1
     last_row = r - 1
+    ok_cols = [1 + j for j, rec in enumerate(records) if rec.option.feasible]  # options that meet the requirement
     r = head + 1
     for kind, item in layout:
         if kind == "section":
@@ -344,13 +345,20 @@ def _write_all(wb, job: Any, records: list, hourly: bool, profile: Any) -> None:
                     ws.write_string(r, col, "n/a", fmt)
                 else:
                     ws.write_number(r, col, float(v), fmt)
-        if m.best and n > 1:
-            # best of the row, and only when the row is not all equal
-            first = xl_rowcol_to_cell(r, 1, col_abs=False)
-            span = f"{xl_rowcol_to_cell(r, 1, col_abs=True)}:{xl_rowcol_to_cell(r, n, col_abs=True)}"
+        if m.best and len(ok_cols) > 1:
+            # best of the row among the options that meet the requirement, and only when they differ
             ext = "MAX" if m.best == "max" else "MIN"
-            ws.conditional_format(r, 1, r, n, {"type": "formula", "format": f["best"],
-                                               "criteria": f"=AND({first}={ext}({span}),MAX({span})<>MIN({span}))"})
+            if len(ok_cols) == n:
+                first = xl_rowcol_to_cell(r, 1, col_abs=False)
+                span = f"{xl_rowcol_to_cell(r, 1, col_abs=True)}:{xl_rowcol_to_cell(r, n, col_abs=True)}"
+                ws.conditional_format(r, 1, r, n, {"type": "formula", "format": f["best"],
+                                                   "criteria": f"=AND({first}={ext}({span}),MAX({span})<>MIN({span}))"})
+            else:
+                span = ",".join(xl_rowcol_to_cell(r, c, row_abs=True, col_abs=True) for c in ok_cols)
+                for c in ok_cols:
+                    ws.conditional_format(r, c, r, c, {"type": "formula", "format": f["best"], "criteria":
+                                                       f"=AND({xl_rowcol_to_cell(r, c)}={ext}({span}),"
+                                                       f"MAX({span})<>MIN({span}))"})
         r += 1
     ws.freeze_panes(head + 1, 1)
 

@@ -256,7 +256,7 @@ def findings_sheet(wb, report) -> None:
     if report.kind == "capacity-test" and report.capacity_percent is not None:
         bound = "at least " if ex.get("lower_bound") else ""
         rows += [("Capacity at 25 °C", f"{bound}{report.capacity_percent:.1f} % ({ex.get('method')} method, IEEE 450)"),
-                 ("Temperature correction", f"factor {ex.get('temperature_factor')} at {ex.get('temperature_c')} °C "
+                 ("Temperature correction", f"factor {ex.get('temperature_factor')} at {_deg(ex.get('temperature_c'))} °C "
                                             f"({ex.get('temperature_basis')})"),
                  ("Thresholds used", ", ".join(f"{k} = {v:g}" for k, v in ex.get("criteria", {}).items()))]
     elif report.kind == "readings" and "sg_convention" in ex:
@@ -437,3 +437,8 @@ def write_fleet_summary(path: str | os.PathLike, sheets: Sequence[SheetSummary],
     with atomic_output(path, force=force) as tmp:
         wb.save(tmp)
     return Path(path)
+
+
+def _deg(t) -> str:
+    """A temperature for people: one decimal (a °F reading converted to °C is not 17.77777…)."""
+    return f"{t:.1f}" if isinstance(t, (int, float)) else str(t)

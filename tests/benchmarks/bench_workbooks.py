@@ -82,7 +82,9 @@ def raw_write(path: Path, job: Job, recs: list[EvaluatedOption]) -> int:
         ws.write_string(2 + r, 0, m.label)
         for j, rec in enumerate(recs):
             v = m.value(rec) if m.value is not None else 0.0
-            if isinstance(v, str):
+            if v is None:  # a metric that does not apply (e.g. cost of readiness for a cyclic job)
+                ws.write_string(2 + r, 1 + j, "n/a")
+            elif isinstance(v, str):
                 ws.write_string(2 + r, 1 + j, v)
             else:
                 ws.write_number(2 + r, 1 + j, float(v))
