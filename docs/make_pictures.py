@@ -43,9 +43,12 @@ def main() -> int:
         run_demo(out, pdf=False)
         for rel, page, name in PAGES:
             pdf = office.to_pdf(out / rel, Path(tmp) / f"{name}.pdf", force=True)
-            if page is None:  # the last page: the Findings sheet comes last in a checked copy
+            if page is None:  # the first page of the Findings sheet (it comes last in a checked copy)
                 info = subprocess.run(["pdfinfo", str(pdf)], capture_output=True, text=True).stdout
-                page = int(next(l.split()[-1] for l in info.splitlines() if l.startswith("Pages:")))
+                pages = int(next(l.split()[-1] for l in info.splitlines() if l.startswith("Pages:")))
+                page = next((p for p in range(1, pages + 1) if "Check of " in subprocess.run(
+                    ["pdftotext", "-f", str(p), "-l", str(p), str(pdf), "-"], capture_output=True, text=True).stdout),
+                    pages)
             subprocess.run(["pdftoppm", "-png", "-r", "70", "-f", str(page), "-l", str(page), "-singlefile",
                             str(pdf), str(IMG / name)], check=True)
             print(f"wrote {IMG / name}.png")
