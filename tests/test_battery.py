@@ -64,3 +64,19 @@ def test_invalid_spec_lists_every_field():
     names = {p.field for p in ei.value.problems}
     assert names == {"chemistry", "block_voltage_v", "float_voltage_per_cell_v"}
     assert "lithium" in str(ei.value)
+
+
+def test_non_numeric_tables_are_named_by_their_own_field():
+    # common practice, no source: a datasheet's cycle-life points are (depth, cycles) numbers;
+    # a text entry there is a cycle_life problem, not a rate_table one, and both are listed at once
+    f = _fields(DEFAULT_CATALOG[4])
+    f.update(cycle_life=((0.5, "many"), (0.8, 400)))
+    with pytest.raises(SpecError) as ei:
+        BatterySpec(**f)
+    assert [(p.field, p.expected) for p in ei.value.problems] == [
+        ("cycle_life", "pairs of (depth of discharge, cycles) numbers")]
+    f.update(rate_table=((1, 62.0), (10, None)))
+    with pytest.raises(SpecError) as ei:
+        BatterySpec(**f)
+    assert [p.field for p in ei.value.problems] == ["rate_table", "cycle_life"]
+    assert "IL-12A-100" in str(ei.value)

@@ -296,12 +296,23 @@ def test_flags_parallel_unreachable_and_end_voltage():
 
 
 def test_flag_voltage_window():
-    # 24 cells × 2.45 V absorption (the 6 V block) = 58.8 V > 58 V; 24 × 2.40 = 57.6 V fits.
-    # 24 × 1.75 V end = 42 V ≥ 40 V.
-    opts = {o.model: o for o in enumerate_options(cyclic_job(window_min_v=40.0, window_max_v=58.0))}
+    # At 25 °C: 24 cells × 2.45 V absorption (the 6 V block) = 58.8 V > 58 V; 24 × 2.40 = 57.6 V fits.
+    # 24 × 1.75 V end = 42 V ≥ 40 V. (arithmetic on the catalog's datasheet values)
+    opts = {o.model: o for o in enumerate_options(cyclic_job(window_min_v=40.0, window_max_v=58.0,
+                                                             min_temp_c=25.0))}
     assert not opts["IL-6F-225"].feasible
     assert any("absorption voltage 58.8 V above the window maximum 58 V" in f for f in opts["IL-6F-225"].flags)
     assert opts["IL-12A-100"].feasible
+    # At 10 °C the charger compensates by −3 mV/°C/cell (IEEE 1188 temperature-compensated charging;
+    # the catalog's datasheet value): 2.40 + 0.003 × 15 = 2.445 V/cell, × 24 = 58.68 V > 58 V.
+    opts = {o.model: o for o in enumerate_options(cyclic_job(window_min_v=40.0, window_max_v=58.0,
+                                                             min_temp_c=10.0))}
+    assert not opts["IL-12A-100"].feasible
+    assert any("absorption voltage 58.7 V at 10 °C (temperature-compensated) above the window maximum 58 V" in f
+               for f in opts["IL-12A-100"].flags)
+    # a window of 58.7 V holds it (58.68 V): the compensation is exactly 45 mV/cell, not more
+    opts = {o.model: o for o in enumerate_options(cyclic_job(window_max_v=58.7, min_temp_c=10.0))}
+    assert not any("voltage window" in f for f in opts["IL-12A-100"].flags)
     opts = {o.model: o for o in enumerate_options(cyclic_job(window_min_v=43.0))}
     assert all(any("end voltage 42.0 V below the window minimum 43 V" in f for f in o.flags) for o in opts.values())
     assert not any(o.feasible for o in opts.values())

@@ -93,13 +93,15 @@ class BatterySpec:
 
     def __post_init__(self) -> None:
         # Normalise sequences to sorted tuples of floats so specs are hashable and comparable.
-        try:
-            rate = tuple(sorted((float(h), float(a)) for h, a in self.rate_table))
-            cyc = tuple(sorted((float(d), float(n)) for d, n in self.cycle_life))
-        except (TypeError, ValueError):
-            raise SpecError("battery", [FieldProblem("rate_table", self.rate_table, "pairs of numbers")])
-        object.__setattr__(self, "rate_table", rate)
-        object.__setattr__(self, "cycle_life", cyc)
+        bad = []
+        for name, what in (("rate_table", "pairs of (hours, Ah) numbers"),
+                           ("cycle_life", "pairs of (depth of discharge, cycles) numbers")):
+            try:
+                object.__setattr__(self, name, tuple(sorted((float(x), float(y)) for x, y in getattr(self, name))))
+            except (TypeError, ValueError):
+                bad.append(FieldProblem(name, getattr(self, name), what))
+        if bad:
+            raise SpecError(f"battery {self.model!r}", bad)
         problems = spec_problems({f.name: getattr(self, f.name) for f in fields(self)})
         if problems:
             raise SpecError(f"battery {self.model!r}", problems)

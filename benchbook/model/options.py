@@ -399,9 +399,16 @@ def _window_flags(spec: BatterySpec, cells: int, job: Job) -> list[str]:
             out.append(f"series count does not fit the voltage window: end voltage {low:.1f} V "
                        f"below the window minimum {job.window_min_v:g} V")
     if job.window_max_v is not None:
-        high = spec.absorption_voltage_per_cell_v * cells
-        if high > job.window_max_v:
-            out.append(f"series count does not fit the voltage window: absorption voltage {high:.1f} V "
+        # The charger raises its voltage below 25 °C by the datasheet's temperature
+        # compensation, so the highest charge voltage comes at the coldest battery
+        # (IEEE 1188 / IEEE 450 practice of temperature-compensated charging; the
+        # simulator applies the same compensation).
+        d_t = min(job.min_temp_c, 25.0) - 25.0
+        per_cell = spec.absorption_voltage_per_cell_v + spec.temp_comp_mv_per_c_per_cell * 1e-3 * d_t
+        high = per_cell * cells
+        if high > job.window_max_v + 1e-9:
+            at = "" if d_t == 0 else f" at {job.min_temp_c:g} °C (temperature-compensated)"
+            out.append(f"series count does not fit the voltage window: absorption voltage {high:.1f} V{at} "
                        f"above the window maximum {job.window_max_v:g} V")
     return out
 
