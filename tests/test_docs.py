@@ -59,3 +59,43 @@ def test_readme_order_and_the_two_setup_commands():
 def test_readme_pictures_exist():
     for rel in re.findall(r"\]\((docs/img/[^)]+\.png)\)", README):
         assert (ROOT / rel).is_file(), rel
+
+
+def _bullet(start: str) -> str:
+    i = README.index(start)
+    return README[i:README.index("\n", i)]
+
+
+def test_readme_rule_of_thumb_figures_are_what_the_models_give():
+    """Every figure of 'What benchbook tells you…' recomputed from the shipped models and catalog.
+
+    The figures illustrate the models (KiBaM, Manwell & McGowan 1993; Peukert 1897; Copetti, Lorenzo &
+    Chenlo 1993); the models themselves are checked against their sources in their own test files.
+    """
+    from benchbook.model.catalog import DEFAULT_CATALOG
+    from benchbook.model.efficiency import cycle_efficiency, parallel_effect
+    from benchbook.model.rate_bank import bank_at_load
+
+    agm = next(s for s in DEFAULT_CATALOG if s.model == "IL-12A-100")
+    one = bank_at_load(agm, 4, 1, load_w=2400, rest_h=8)
+    three = bank_at_load(agm, 4, 3, load_w=2400, rest_h=8)
+    text = _bullet("- **Parallel strings are not additive.**")
+    for s in (f"gets {one.kibam_usable_kwh:.1f} kWh from one string", f"three strings give {three.kibam_usable_kwh:.1f} kWh",
+              f"3 × {one.kibam_usable_kwh:.1f} = {3 * one.kibam_usable_kwh:.1f}",
+              f"KiBaM parallel gain {three.kibam_parallel_gain:.2f}", f"says {three.peukert_parallel_gain:.2f}"):
+        assert s in text, s
+    text = _bullet("- **The same charge comes out more slowly.**")
+    for s in (f"gives {agm.capacity_ah(1):.0f} Ah in 1 h and {agm.capacity_ah(20):.0f} Ah over 20 h",
+              f"{one.bound_ah_at_cutoff:.0f} Ah is still bound", f"rest {one.recovered_ah_after_rest:.0f} Ah",
+              "KiBaM"):
+        assert s in text, s
+    text = _bullet("- **Efficiency depends on the real rate.**")
+    slow = cycle_efficiency(agm, 4, 1, depth=0.5, discharge_c_rate=0.1, charge_c_rate=0.1)
+    fast = cycle_efficiency(agm, 4, 1, depth=0.5, discharge_c_rate=1 / 3, charge_c_rate=0.1)
+    rows = parallel_effect(agm, 4, [1, 2, 3], bank_discharge_a=30.0, bank_charge_a=20.0, depth=0.5)
+    for s in (f"returns {100 * slow.energy:.0f} % of the energy", f"at C/3 discharge, {100 * fast.energy:.0f} %",
+              f"about {100 * slow.coulombic:.0f} %",
+              "30 A bank discharge and 20 A recharge to 50 % depth",
+              "return " + ", ".join(f"{100 * r.cycle.energy:.0f} %" for r in rows[:2])
+              + f" and {100 * rows[2].cycle.energy:.0f} %"):
+        assert s in text, s

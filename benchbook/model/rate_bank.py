@@ -175,3 +175,27 @@ def bank_at_load(spec, series: int, parallel: int, *, load_w: float | None = Non
         recovered_ah_after_rest=parallel * float(q1_rest),
         in_table=bool(min(hours) <= t_k <= max(hours)),
     )
+
+
+def design_load(job) -> dict:
+    """The constant load at which a job's options are compared by KiBaM and Peukert.
+
+    Cyclic jobs: the mean DC power over the day (``load_w``); standby jobs: the
+    largest duty-cycle current (``load_a``), the period that sets most cells in
+    the IEEE 485 section method. A constant load stands in for the real
+    profile: Peukert's law holds for a constant load only (Peukert 1897), and
+    KiBaM (Manwell & McGowan 1993) shows what the profile's rests give back.
+
+    Returns
+    -------
+    dict
+        ``{"load_w": W}`` or ``{"load_a": A}``, ready for :func:`bank_at_load`.
+    """
+    if job.application == "standby" and job.duty_cycle:
+        return {"load_a": max(p.current_a for p in job.duty_cycle)}
+    return {"load_w": max(job.mean_dc_power_w, 1e-6)}
+
+
+def option_at_design_load(job, option, *, rest_h: float = 8.0) -> BankAtLoad:
+    """:func:`bank_at_load` for one bank option at the job's :func:`design_load`."""
+    return bank_at_load(option.spec, option.series, option.parallel, rest_h=rest_h, **design_load(job))

@@ -32,7 +32,7 @@ import xlsxwriter
 from xlsxwriter.utility import xl_rowcol_to_cell
 
 from benchbook.errors import InputError
-from benchbook.model.rate_bank import bank_at_load
+from benchbook.model.rate_bank import bank_at_load, design_load
 from benchbook.model.safety import bank_short_circuit, bank_ventilation, cautions
 from benchbook.sheets.safeio import atomic_output
 
@@ -165,8 +165,7 @@ def parallel_curve(job: Any, record: Any, max_parallel: int) -> tuple[list[int],
     :func:`benchbook.model.rate_bank.bank_at_load`. [kWh]
     """
     o = record.option
-    kw: dict = ({"load_a": max(p.current_a for p in job.duty_cycle)} if job.application == "standby"
-                and job.duty_cycle else {"load_w": max(job.mean_dc_power_w, 1e-6)})
+    kw = design_load(job)
     ps, bank, naive = [], [], []
     fit: dict = {}
     for p in range(1, max(1, int(max_parallel)) + 1):
