@@ -65,6 +65,35 @@ def test_quote_grand_total_is_the_sum_of_its_lines(demo):
         assert printed in r.stdout, (printed, r.stdout)
 
 
+def test_recalculated_grand_total_matches_the_lines(demo, tmp_path):
+    """A real spreadsheet client (LibreOffice) recalculates the demo quote: its grand total is Σ qty × price,
+    less the discount, plus tax (the quote template's own formulas; arithmetic as the reference)."""
+    from office import require_office  # tests/office.py
+    from benchbook.sheets.office import recalculated_copy
+
+    require_office()
+    out, r = demo
+    path = out / "quotes" / "standby-brindle-hill-quote.xlsx"
+    before = path.read_bytes()
+    recalc = recalculated_copy(path, tmp_path / "recalc.xlsx")
+    assert path.read_bytes() == before
+    wb = openpyxl.load_workbook(recalc, data_only=True)
+    ws_name, _ = next(iter(wb.defined_names["quote_grand_total"].destinations))
+    table = next(t for t in wb[ws_name].tables.values() if t.name == "QuoteItems")
+    first, last = table.ref.split(":")
+    rows = list(wb[ws_name][first:last])
+    head = [c.value for c in rows[0]]
+    qi = head.index(next(h for h in head if h.startswith("Qty")))
+    pi = head.index(next(h for h in head if h.startswith("Unit price")))
+    lines = sum(float(row[qi].value) * float(row[pi].value) for row in rows[1:] if row[qi].value is not None)
+    discount = float(_named(wb, "quote_discount_rate").value or 0)
+    tax = float(_named(wb, "quote_tax_rate").value or 0)
+    grand = _named(wb, "quote_grand_total").value
+    assert isinstance(grand, (int, float)) and lines > 0
+    assert grand == pytest.approx(lines * (1 - discount) * (1 + tax), rel=1e-12)
+    assert f"quote grand total {grand:,.2f}" in r.stdout
+
+
 def test_checked_copies_name_the_planted_mistakes(demo):
     out, _ = demo
     checked = out / "field" / "checked"
@@ -83,6 +112,9 @@ def test_checked_copies_name_the_planted_mistakes(demo):
     assert "unit 'V' removed" in readings or "unit 'µΩ' removed" in readings
     test = found["DC-A-capacity-test-2026-03.checked.xlsx"]
     assert "°F" in test
+    # planted by fill_capacity_test(mistakes=True): a formula typed into a current cell and a blank row
+    assert "a formula was typed into an input cell" in test
+    assert "1 blank row(s) inside the log were skipped" in test
 
 
 def test_demo_refuses_a_non_empty_folder(tmp_path):

@@ -208,7 +208,10 @@ def fill_readings(sheet: str | os.PathLike, out: str | os.PathLike, rows: list[d
     if mistakes and rows:
         if "Specific gravity [-]" in cols:
             ws.cell(head + 2, cols["Specific gravity [-]"]).value = int(round(rows[1]["Specific gravity [-]"] * 1000))
-        ws.cell(head + 3, cols["Float voltage [V]"]).value = round(rows[2]["Float voltage [V]"] * 24, 2)  # string total
+        string_of = str(rows[2]["Block"]).split("-")[0]
+        series = sum(1 for row in rows if str(row["Block"]).split("-")[0] == string_of)
+        # a string total typed into a block cell: the block's reading × the blocks in its string
+        ws.cell(head + 3, cols["Float voltage [V]"]).value = round(rows[2]["Float voltage [V]"] * series, 2)
         ws.cell(head + 4, cols["Remarks"]).value = "terminal corrosion, cleaned"
     with atomic_output(out, force=force) as tmp:
         wb.save(tmp)
