@@ -5,6 +5,7 @@ from __future__ import annotations
 import re
 import zipfile
 from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 import openpyxl
@@ -138,14 +139,127 @@ def test_hourly_sheets_row_by_row(tmp_path, records):
     assert data[-1][2] == 365 and data[-1][3] == 23
 
 
-def test_user_text_written_as_text(tmp_path, records):
-    job = make_job(site='=HYPERLINK("http://x","y")', client="@SUM(A1)")
-    out = write_comparison(job, records[:2], tmp_path / "c.xlsx", hourly=False)
-    with zipfile.ZipFile(out) as z:
-        xml = z.read("xl/worksheets/sheet1.xml").decode()
-    assert re.search(r"<f>[^<]*HYPERLINK", xml) is None and re.search(r"<f>[^<]*SUM\(A1\)", xml) is None
-    ws = openpyxl.load_workbook(out)["Summary"]
-    assert ws["A2"].value == 'Site: =HYPERLINK("http://x","y")' and ws["A2"].data_type == "s"
+# ---- formula injection through real inputs ----------------------------------------------------
+# Text a spreadsheet would take as a formula: "=", "+", "-" and "@" first (OWASP "CSV Injection"; common practice).
+HOSTILE = (("=1+1", "+SUM(A1)", "=IL-12A-100"), ("@x", "-2", "=SUM(1,2)"))
+
+
+def _hostile_files(folder: Path, site: str, client: str, model: str) -> dict:
+    """A job workbook made as a user makes one, with hostile text in it, and the comparison and quote of it.
+
+    The intake form is the real one (``build_intake_template``) with a Batteries table whose only battery
+    model starts with "=", filled like the off-grid sample, then site and client typed over. benchbook
+    reads it back (``read_job``) and writes the comparison and the quote through ``compare_job`` and
+    ``quote_job``, what ``benchbook compare`` and ``benchbook quote`` call.
+    """
+    from benchbook.model.catalog import DEFAULT_CATALOG
+    from benchbook.sheets.intake import read_job
+    from benchbook.sheets.make_templates import build_intake_template, build_offgrid_sample
+    from benchbook.sheets.report import compare_job, quote_job
+    from benchbook.sheets.tables import set_named_value
+
+    spec = replace(next(s for s in DEFAULT_CATALOG if s.model == "IL-12A-100"), model=model)
+    form = folder / "intake.xlsx"
+    build_intake_template((spec,)).save(form)
+    wb = build_offgrid_sample(form)
+    set_named_value(wb, "job_site", site)
+    set_named_value(wb, "job_client", client)
+    job_path = folder / "job.xlsx"
+    wb.save(job_path)
+    job, specs = read_job(job_path)
+    compare = compare_job(job_path, folder / "compare.xlsx", hourly=False)
+    quote = quote_job(job_path, 1, folder / "quote.xlsx")
+    return {"job": job, "specs": specs, "compare": compare, "quote": quote}
+
+
+@pytest.fixture(scope="module", params=HOSTILE, ids=lambda h: h[0])
+def hostile(request, tmp_path_factory):
+    site, client, model = request.param
+    files = _hostile_files(tmp_path_factory.mktemp("hostile"), site, client, model)
+    return site, client, model, files
+
+
+def _xml_cell(path: Path, part: str, addr: str) -> str:
+    with zipfile.ZipFile(path) as z:
+        xml = z.read(part).decode()
+    m = re.search(rf'<c r="{addr}"[^>]*?(/>|>.*?</c>)', xml)
+    assert m, addr
+    return m.group(0)
+
+
+def _label(key: str) -> str:
+    return next(m.label for m in metrics("EUR") if m.key == key)
+
+
+def _literal_cells(compare_wb, quote_wb, site: str, client: str, model: str) -> list[tuple[object, str, bool]]:
+    """(cell, text, whole) for every place the hostile text lands: the cell holds ``text`` (or starts with it)."""
+    ws = compare_wb["Summary"]
+
+    def named(name):
+        dest = next(iter(quote_wb.defined_names[name].destinations))
+        return quote_wb[dest[0]][dest[1].replace("$", "")]
+
+    q = quote_wb["Quote"]
+    c1, r1, _, _ = openpyxl.utils.cell.range_boundaries(q.tables["QuoteItems"].ref)
+    return [(ws["A2"], f"Site: {site}", True), (ws["A3"], f"Client: {client}", True), (ws["B6"], f"#1 {model}", True),
+            (ws.cell(_rows(ws)[_label("battery")], 2), model, True),
+            (compare_wb["Charts"]["A1"], f"Bank options compared: charts — {site}", True),
+            (named("quote_site"), site, True), (named("quote_client"), client, True),
+            (named("quote_battery_model"), model, True),
+            # BOM line 1, "Battery blocks": its description starts with the model ("<model>, 12 V agm, ...")
+            (q.cell(r1 + 1, c1 + 1), model + ", 12 V agm", False)]
+
+
+def _assert_literal(cells) -> None:
+    for cell, text, whole in cells:
+        where = (cell.parent.title, cell.coordinate, cell.value)
+        assert cell.data_type == "s", where
+        assert (cell.value == text) if whole else cell.value.startswith(text), where
+
+
+def test_hostile_text_from_real_inputs_is_written_as_text(hostile):
+    # formula-injection guard (DESIGN.md): user text (site, client, a catalog's model name) is always a
+    # string cell, never a formula; a string cell is t="s" or t="inlineStr" (ECMA-376 Part 1, 18.18.11 ST_CellType)
+    site, client, model, files = hostile
+    job, specs = files["job"], files["specs"]
+    assert (job.site, job.client, [s.model for s in specs]) == (site, client, [model])  # read back literally
+    cwb, qwb = openpyxl.load_workbook(files["compare"]), openpyxl.load_workbook(files["quote"].path)
+    cells = _literal_cells(cwb, qwb, site, client, model)
+    _assert_literal(cells)
+    # and in the XML itself: string cells with no <f> element (xlsxwriter for the comparison, openpyxl for the quote)
+    for path, cell in ((files["compare"], cells[3][0]), (files["quote"].path, cells[5][0]),
+                       (files["quote"].path, cells[6][0]), (files["quote"].path, cells[7][0])):
+        xml = _xml_cell(path, "xl/worksheets/sheet1.xml", cell.coordinate)
+        assert ('t="s"' in xml or 't="inlineStr"' in xml) and "<f>" not in xml, (path.name, xml)
+    # the workbooks do hold formulas elsewhere, so the checks above are not blind to them
+    ws = cwb["Summary"]
+    assert ws.cell(_rows(ws)[_label("blocks")], 2).data_type == "f"
+
+
+@pytest.mark.office
+def test_hostile_text_stays_literal_in_libreoffice(hostile, tmp_path):
+    # the real client: LibreOffice recalculates both workbooks; a cell taken for a formula would show 2, 3,
+    # #NAME? or Err: instead of the text (tests/office.py require_office; DESIGN.md real-client tests)
+    from benchbook.sheets import office
+    from office import require_office  # tests/office.py
+
+    require_office()
+    site, client, model, files = hostile
+    c_lo = office.recalculated_copy(files["compare"], tmp_path / "compare-lo.xlsx")
+    q_lo = office.recalculated_copy(files["quote"].path, tmp_path / "quote-lo.xlsx")
+    for data_only in (True, False):  # the value shown, and what the cell is (a string, not a formula)
+        cwb, qwb = openpyxl.load_workbook(c_lo, data_only=data_only), openpyxl.load_workbook(q_lo, data_only=data_only)
+        _assert_literal(_literal_cells(cwb, qwb, site, client, model))
+    # LibreOffice did recalculate: the formula cells carry benchbook's own numbers (option 1's blocks, the
+    # quantity of the quote's "Battery blocks" line; the grand total from benchbook.model.bom.quote_totals)
+    cwb, qwb = openpyxl.load_workbook(c_lo, data_only=True), openpyxl.load_workbook(q_lo, data_only=True)
+    ws = cwb["Summary"]
+    blocks = files["quote"].lines[0]
+    assert blocks.item == "Battery blocks" and blocks.quantity > 0
+    assert ws.cell(_rows(ws)[_label("blocks")], 2).value == pytest.approx(blocks.quantity, rel=1e-12)
+    dest = next(iter(qwb.defined_names["quote_grand_total"].destinations))
+    got = qwb[dest[0]][dest[1].replace("$", "")].value
+    assert got == pytest.approx(files["quote"].totals.grand_total, rel=1e-9)
 
 
 def test_output_refused_without_force(tmp_path, records):

@@ -448,9 +448,13 @@ def quote_template_problems(template: str | Path) -> list[str]:
     """
     from benchbook.sheets.contract_check import check_template  # noqa: PLC0415
 
+    from benchbook.sheets.templatecheck import header_cell_problems  # noqa: PLC0415
+
     problems = check_template(template, "quote")
     if problems:
         return problems
+    with T.Book(template) as book:  # a header cell retyped while the table kept its old column name
+        problems += header_cell_problems(book, N.contract("quote"))
     wb = load_openpyxl(template)
     pairs = (("quote_cautions_first", "quote_cautions_last", 2, 5),
              ("quote_assumptions_first", "quote_assumptions_last", 2, 8),
