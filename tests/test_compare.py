@@ -326,3 +326,23 @@ def test_best_marks_only_options_that_meet_the_requirement(tmp_path, records):
     out2 = write_comparison(job, recs, tmp_path / "c2.xlsx", hourly=False)
     ws2 = openpyxl.load_workbook(out2)["Summary"]
     assert all(re.fullmatch(r"B\d+:D\d+", str(cf.sqref)) for cf in ws2.conditional_formatting)
+
+
+def test_an_option_with_no_cost_figure_shows_n_a_and_why(tmp_path, records):
+    # an option that delivered no energy has no cost per delivered kWh (a division by zero is not a price;
+    # common practice, no source): its LCOS rows and every formula built on them say n/a, and the flags say why
+    job = make_job()
+    note = "delivers no energy over the simulated year, so no cost per delivered kWh"
+    recs = [records[0], replace(records[1], lcos=None, cost_per_kwh=None, cost_note=note), records[2]]
+    out = write_comparison(job, recs, tmp_path / "c.xlsx", hourly=False)
+    ws = openpyxl.load_workbook(out)["Summary"]
+    rows = _rows(ws)
+    labels = {m.key: m.label for m in metrics("USD")}
+    for key in ("capex_pv", "repl_pv", "charging_pv", "delivered_pv", "total_pv", "per_kwh", "s_capex", "s_eol"):
+        assert ws.cell(rows[labels[key]], 3).value == "n/a", key
+        assert str(ws.cell(rows[labels[key]], 2).value) != "n/a", key  # the neighbours keep their figures
+    assert str(ws.cell(rows[labels["per_kwh"]], 2).value).startswith("=")
+    # rows that do not depend on the cost keep their figure or formula
+    assert ws.cell(rows[labels["capex"]], 3).value == pytest.approx(recs[1].capex)
+    assert str(ws.cell(rows[labels["blocks"]], 3).value).startswith("=")
+    assert note in ws.cell(rows[labels["flags"]], 3).value

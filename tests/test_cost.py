@@ -80,6 +80,23 @@ def test_lcos_worked_case_by_hand_and_npv():
     assert res.total_cost_pv == pytest.approx(npf.npv(0.05, costs), rel=1e-12)
 
 
+def test_lcos_generator_share_is_not_priced_twice():
+    # a quarter of the charging energy came from the generator, whose fuel (fuel_per_year) pays for it: only the
+    # other three quarters carry the charging price (Schmidt et al. 2019 charging term, from memory; hand sum)
+    res = lcos(**BASE, fuel_per_year=100.0, generator_share_of_charging=0.25)
+    a = (1 - 1.05 ** -10) / 0.05
+    assert res.charging_pv == pytest.approx(0.10 / 0.80 * 1000 * 0.75 * a, rel=1e-12)
+    assert res.fuel_pv == pytest.approx(100 * a, rel=1e-12)
+    # cross-check: numpy_financial.npv of the yearly flows
+    costs = np.r_[10000.0, np.full(10, 200 + 100 + 0.10 / 0.80 * 1000 * 0.75)]
+    energy = np.r_[0.0, np.full(10, 1000.0)]
+    assert res.per_kwh == pytest.approx(npf.npv(0.05, costs) / npf.npv(0.05, energy), rel=1e-12)
+    # all of it from the generator: no charging price at all
+    assert lcos(**BASE, generator_share_of_charging=1.0).charging_pv == 0.0
+    with pytest.raises(ModelError, match="generator_share_of_charging"):
+        lcos(**BASE, generator_share_of_charging=1.5)
+
+
 def test_lcos_degradation_convention():
     g = 0.02
     res = lcos(**{**BASE, "degradation_per_year": g})

@@ -132,7 +132,8 @@ def test_round_trip_minimal_cyclic_job(tmp_path):
 
 def test_round_trip_every_input(tmp_path):
     values = {**BASE, "job_window_min_v": 21, "job_window_max_v": 31, "job_max_parallel": 3,
-              "job_charge_source": "Solar", "job_charger_power_w": 1200, "job_latitude_deg": -33.9,
+              "job_charge_source": "Solar", "job_charger_power_w": 1200, "job_charger_max_a": 40,
+              "job_latitude_deg": -33.9,
               "job_avg_temp_c": 18, "job_gen_power_w": 2500, "job_gen_start_soc": 0.4, "job_gen_stop_soc": 0.95,
               "job_gen_fuel_cost_per_kwh": 0.7, "job_horizon_years": 15, "job_discount_rate": 0.04,
               "job_energy_price_per_kwh": 0.3, "job_om_per_year": 99, "job_install_cost": 2000,
@@ -159,11 +160,26 @@ def test_round_trip_every_input(tmp_path):
         loads=(Load("Lights", 60.0, 5.0), Load("Fridge", 100.0, 8.0)),
         duty_cycle=(DutyPeriod(180.0, 1.0), DutyPeriod(60.0, 238.0), DutyPeriod(120.0, 1.0)),
         random_load=DutyPeriod(30.0, 1.0), charge_source="solar", solar_kwh_per_day_by_month=tuple(energy),
-        charger_power_w=1200.0, generator=Generator(0.4, 0.95, 2500.0, 0.7), latitude_deg=-33.9,
+        charger_power_w=1200.0, charger_max_current_a=40.0, generator=Generator(0.4, 0.95, 2500.0, 0.7),
+        latitude_deg=-33.9,
         hourly=HourlyProfile(tuple(float(r[1]) for r in hourly), tuple(float(r[2]) for r in hourly)),
         avg_temp_c=18.0, monthly_temp_c=tuple(float(t) for t in temps), max_parallel=3,
         economics=Economics(15, 0.04, 0.3, 99.0, 2000.0, "NZD", 12.0))
     assert isinstance(job.max_parallel, int) and isinstance(job.economics.horizon_years, int)
+
+
+def test_charger_maximum_current_is_read_by_its_name(tmp_path):
+    # blank = no limit (the Job default, None); a current above 0 A is read as a float; 0 or less is an error at
+    # its cell (a charger limit of 0 A charges nothing; common practice, no source)
+    job, _ = read_job(job_file(tmp_path, BASE, {"Loads": LOADS}))
+    assert job.charger_max_current_a is None
+    job, _ = read_job(job_file(tmp_path, {**BASE, "job_charger_max_a": 25}, {"Loads": LOADS}, name="b.xlsx"))
+    assert job.charger_max_current_a == 25.0
+    err = problems(job_file(tmp_path, {**BASE, "job_charger_max_a": -5}, {"Loads": LOADS}, name="c.xlsx"))
+    cell = where("job_charger_max_a")
+    assert err.cells == [cell]
+    assert str(err).endswith(f"{cell}: Charger maximum current [A]: found -5; expected a number above 0 and at "
+                             "most 100000 A")
 
 
 def test_standby_job_takes_its_defaults_from_the_duty_cycle(tmp_path):
@@ -185,7 +201,7 @@ def test_everything_wrong_at_once(tmp_path):
         wb["Batteries"]["I7"].value = 119
 
     err = problems(job_file(tmp_path, values, edit=bad_rate))
-    assert err.cells == ["Job!C7", "Job!C12", "Job!C14", "Job!C37", "Job!C38", "Job!C39", "Job!C41",
+    assert err.cells == ["Job!C7", "Job!C12", "Job!C14", "Job!C38", "Job!C39", "Job!C40", "Job!C42",
                          "Loads!B7", "Batteries!I7"]
     assert [where(n) for n in ("job_site", "job_system_voltage_v", "job_max_dod")] == err.cells[:3]
     msg = {e.where: e.message for e in err}
@@ -193,10 +209,10 @@ def test_everything_wrong_at_once(tmp_path):
     assert msg["Job!C12"] == 'Job!C12: System voltage [V]: found "forty-eight"; expected a number from 2 to 1000 V'
     assert msg["Job!C14"] == ("Job!C14: Maximum depth of discharge [%]: found 50; expected a fraction above 0 and "
                               "at most 1 (0.5 is 50 %); 50 % is 0.50")
-    assert msg["Job!C37"] == "Job!C37: Costing horizon [years]: found 0; expected a whole number from 1 to 100 years"
-    assert msg["Job!C38"] == ("Job!C38: Discount rate (real) [%]: found 1; expected a fraction from 0 to below 1 "
+    assert msg["Job!C38"] == "Job!C38: Costing horizon [years]: found 0; expected a whole number from 1 to 100 years"
+    assert msg["Job!C39"] == ("Job!C39: Discount rate (real) [%]: found 1; expected a fraction from 0 to below 1 "
                               "(0.5 is 50 %)")
-    assert "found -0.1; expected a number from 0 to 10000 currency/kWh" in msg["Job!C39"]
+    assert "found -0.1; expected a number from 0 to 10000 currency/kWh" in msg["Job!C40"]
     assert msg["Loads!B7"] == ("Loads!B7: Loads: found an empty table Loads; expected at least one load "
                                "(Load, Power [W], Hours per day) for a cyclic job")
     assert msg["Batteries!I7"] == ("Batteries!I7: IL-6F-225, 3 h rate [Ah]: found 119; expected capacity at 3 h of "

@@ -14,6 +14,7 @@ from benchbook.errors import ModelError
 from benchbook.model.life import (
     ServiceLife,
     cycle_life_fit,
+    dod_cycles,
     cycles_to_failure,
     float_life_years,
     miner_damage,
@@ -41,6 +42,39 @@ def test_astm_e1049_example():
     assert _hist(cycles) == {3: 0.5, 4: 1.5, 6: 0.5, 8: 1.0, 9: 0.5}
     # cross-check: PyPI rainflow reference implementation
     assert _hist(cycles) == _hist(rainflow.count_cycles(ASTM_SERIES))
+
+
+# The ASTM series as a state of charge: SOC = 0.5 + x/20 (0.30 to 0.75), so DoD = 1 − SOC = 0.5 − x/20 and every
+# range scales by 1/20 (ranges 3, 4, 6, 8, 9 -> depths 0.15, 0.20, 0.30, 0.40, 0.45).
+ASTM_SOC = [0.5 + x / 20 for x in ASTM_SERIES]
+
+
+def test_dod_cycles_of_the_astm_example_as_a_state_of_charge():
+    # Independent of the rainflow package: ASTM E1049-85 §5.4.4 example (Fig. 6), counts (from memory, not read):
+    # range 3 -> 0.5 cycle, 4 -> 1.5, 6 -> 0.5, 8 -> 1.0, 9 -> 0.5; here through benchbook's own DoD counting
+    assert _hist(dod_cycles(ASTM_SOC)) == pytest.approx({0.15: 0.5, 0.2: 1.5, 0.3: 0.5, 0.4: 1.0, 0.45: 0.5})
+    # total: 4 cycles from 5 half cycles + 1.5 full (sum of the counts above, by hand)
+    assert sum(c for _d, c in dod_cycles(ASTM_SOC)) == pytest.approx(4.0)
+
+
+def test_dod_cycles_of_the_astm_example_repeating_by_hand():
+    # ASTM E1049-85 §5.4.4 rules applied by hand to the history repeated (§5.4.5, from memory): start at the
+    # largest value, DoD 0.70 (x = -4): reversals -4 4 -2 1 -3 5 -1 3 -4. Counted: (-2,1) range 3 -> 1 cycle,
+    # (4,-3) range 7 -> 1, (-1,3) range 4 -> 1, then (-4,5) range 9 twice as half cycles -> 1. In DoD: /20.
+    cycles = dod_cycles(ASTM_SOC, repeating=True)
+    assert _hist(cycles) == pytest.approx({0.15: 1.0, 0.35: 1.0, 0.2: 1.0, 0.45: 1.0})
+    # service_life counts the same way, and Miner's rule sums them: N(D) = 1000 D^-2 fitted through
+    # (0.25, 16000) and (0.5, 4000) (hand: 4000·0.25 = 1000, b = ln 4 / ln 2 = 2)
+    life = service_life(ASTM_SOC, cycle_life=[(0.25, 16000.0), (0.5, 4000.0)], design_life_25c_years=20.0,
+                        avg_temp_c=25.0, trace_years=1.0)
+    hand = sum(d ** 2 / 1000.0 for d in (0.15, 0.35, 0.2, 0.45))  # Miner (1945): Σ n/N, one cycle each
+    assert life.damage_per_year == pytest.approx(hand, rel=1e-9)
+    assert life.cycles_per_year == pytest.approx(4.0)
+
+
+def test_dod_cycles_bad_soc():
+    with pytest.raises(ModelError, match="position 2"):
+        dod_cycles([0.9, 0.5, 1.3])
 
 
 @settings(max_examples=60, deadline=None)

@@ -80,6 +80,16 @@ def test_brief_names_and_tables_are_in_the_contract():
     assert INTAKE.name("job_max_dod").kind == "fraction"
 
 
+def test_charger_maximum_current_name():
+    # optional input in amperes, blank = no limit: the Job default None (the brief's rule for optional names)
+    spec = INTAKE.name("job_charger_max_a")
+    assert (spec.label, spec.unit, spec.kind, spec.field) == ("Charger maximum current", "A", "number",
+                                                              "charger_max_current_a")
+    assert spec.default is None and not spec.required
+    assert Job.__dataclass_fields__["charger_max_current_a"].default is None
+    assert expected_text(spec) == "a number above 0 and at most 100000 A"
+
+
 def test_every_name_fills_a_real_field_with_its_dataclass_default():
     # The optional names take the defaults of Job / Generator / Economics (the brief's rule).
     owners = {"generator": Generator, "economics": Economics, "random_load": DutyPeriod}

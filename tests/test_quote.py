@@ -429,3 +429,14 @@ def test_arrangement_wraps_long_strings_and_says_what_is_not_drawn(tmp_path, opt
     assert "wraps over 4 rows" in cap
     assert len(labels) == (r2 - r1 + 1) // 4 == 6  # 24 rows hold 6 strings of 4 rows, no spacer rows
     assert "Strings 7 to 8 are identical and not drawn" in cap
+
+
+def test_quote_without_a_cost_figure_says_why(tmp_path, options):
+    # a bank that delivers no energy has no cost per delivered kWh: the quote says so in words rather than
+    # printing a made-up number (common practice, no source)
+    note = "delivers no energy over the simulated year, so no cost per delivered kWh"
+    rec = make_record(option_with(options, 4, 3), lcos=None, cost_per_kwh=None, cost_note=note)
+    res = write_quote(make_job(), rec, tmp_path / "q.xlsx", terms=TERMS)
+    wb = openpyxl.load_workbook(res.path)
+    assert _cell(wb, "quote_cost_per_kwh").value == f"not available ({note})"
+    assert _cell(wb, "quote_cost_of_readiness").value == "not applicable (cyclic job)"

@@ -31,7 +31,9 @@ HOURS_PER_YEAR = 8760.0
 LCOS_CONVENTIONS = (
     "LCOS after Schmidt et al., Joule 3:81-100 (2019); capex at year 0; O&M, fuel, charging and "
     "delivered energy at the end of years 1..N; replacements at the end of their year; end-of-life "
-    "cost at year N+1; delivered energy E_n = E_1 (1 - degradation)^(n-1), not reset by replacements"
+    "cost at year N+1; delivered energy E_n = E_1 (1 - degradation)^(n-1), not reset by replacements; "
+    "charging energy E_n/efficiency priced at the charging price except the share the generator "
+    "supplied, which its fuel pays"
 )
 READINESS_CONVENTIONS = (
     "annualised by the capital recovery factor; capex at year 0; O&M and float energy at the end of "
@@ -213,7 +215,8 @@ class LcosResult:
     om_pv : float
         Discounted operation and maintenance. [currency]
     charging_pv : float
-        Discounted cost of charging energy. [currency]
+        Discounted cost of charging energy bought at the charging price (the
+        generator's share is in ``fuel_pv``). [currency]
     fuel_pv : float
         Discounted generator fuel cost. [currency]
     end_of_life_pv : float
@@ -257,11 +260,13 @@ class LcosResult:
 def lcos(*, capex: float, om_per_year: float, discount_rate: float, years: int, delivered_kwh_per_year: float,
          charge_price_per_kwh: float, round_trip_efficiency: float, degradation_per_year: float = 0.0,
          end_of_life_cost: float = 0.0, replacements: Sequence[tuple[float, float]] = (),
-         fuel_per_year: float = 0.0) -> LcosResult:
+         fuel_per_year: float = 0.0, generator_share_of_charging: float = 0.0) -> LcosResult:
     """Levelized cost of storage (LCOS): discounted costs over discounted delivered energy.
 
-    ``LCOS = [Capex + Σ_k R_k/(1+r)^y_k + Σ_n (O&M + F + P·E_n/η)/(1+r)^n + EoL/(1+r)^(N+1)]
-    / Σ_n E_n/(1+r)^n``, with ``n = 1..N`` and ``E_n = E_1 (1 − g)^(n−1)``.
+    ``LCOS = [Capex + Σ_k R_k/(1+r)^y_k + Σ_n (O&M + F + P·(1 − s)·E_n/η)/(1+r)^n + EoL/(1+r)^(N+1)]
+    / Σ_n E_n/(1+r)^n``, with ``n = 1..N``, ``E_n = E_1 (1 − g)^(n−1)`` and
+    ``s`` the share of the charging energy a backup generator supplies (its
+    fuel ``F`` already pays for it, so the charging price applies to the rest).
 
     Parameters
     ----------
@@ -294,6 +299,11 @@ def lcos(*, capex: float, om_per_year: float, discount_rate: float, years: int, 
         and :func:`replacement_cost`). [years], [currency]
     fuel_per_year : float, default 0
         Generator fuel (and running) cost per year, discounted like O&M. [currency/year]
+    generator_share_of_charging : float, default 0
+        Share ``s`` of the charging energy ``E_n/η`` that the backup generator
+        supplied, from 0 to 1 (e.g. the simulation's generator energy into the
+        bank ÷ its energy in); that energy is paid by ``fuel_per_year`` and does
+        not carry ``charge_price_per_kwh`` as well. [-]
 
     Returns
     -------
@@ -306,7 +316,8 @@ def lcos(*, capex: float, om_per_year: float, discount_rate: float, years: int, 
         (a :class:`~benchbook.errors.ModelError`) listing every bad input:
         a discount rate outside [0, 1), fewer than 1 year, a negative cost or
         price, an efficiency outside (0, 1], a degradation outside [0, 1), no
-        delivered energy, or a replacement outside the horizon.
+        delivered energy, a generator share outside [0, 1], or a replacement
+        outside the horizon.
 
     References
     ----------
@@ -327,6 +338,9 @@ def lcos(*, capex: float, om_per_year: float, discount_rate: float, years: int, 
     if not _finite(degradation_per_year) or not 0 <= degradation_per_year < 1:
         probs.append(FieldProblem("degradation_per_year", degradation_per_year,
                                   "a yearly fall from 0 up to but not including 1"))
+    if not _finite(generator_share_of_charging) or not 0 <= generator_share_of_charging <= 1:
+        probs.append(FieldProblem("generator_share_of_charging", generator_share_of_charging,
+                                  "a share of the charging energy from 0 to 1"))
     if not _finite(end_of_life_cost):
         probs.append(FieldProblem("end_of_life_cost", end_of_life_cost, "a number (negative for a salvage credit)"))
     repl, rprobs = _replacement_problems(replacements, years)
@@ -342,7 +356,8 @@ def lcos(*, capex: float, om_per_year: float, discount_rate: float, years: int, 
     annuity = float(np.sum(df))
     om_pv = float(om_per_year) * annuity
     fuel_pv = float(fuel_per_year) * annuity
-    charging_pv = float(charge_price_per_kwh) / float(round_trip_efficiency) * energy_pv
+    charging_pv = (float(charge_price_per_kwh) * (1.0 - float(generator_share_of_charging))
+                   / float(round_trip_efficiency) * energy_pv)
     repl_pv = float(sum(c * _discount(r, y) for y, c in repl))
     eol_pv = float(end_of_life_cost) * float(_discount(r, n_years + 1))
     total = float(capex) + repl_pv + om_pv + charging_pv + fuel_pv + eol_pv

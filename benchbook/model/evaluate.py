@@ -9,6 +9,7 @@ a job: it sizes the options (``sizing``), simulates a year for all of them at on
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Any, Optional
 
@@ -55,12 +56,22 @@ class EvaluatedOption:
         Years within the horizon at which the bank is replaced.
     capex : float
         Blocks plus installation at year 0. [currency]
-    lcos : Any
-        The :class:`benchbook.model.cost.LcosResult` with every term.
-    cost_per_kwh : float
-        Levelized cost per delivered kWh. [currency/kWh]
+    lcos : LcosResult or None
+        The :class:`benchbook.model.cost.LcosResult` with every term; None when
+        no cost per delivered kWh can be given (see ``cost_note``).
+    cost_per_kwh : float or None
+        Levelized cost per delivered kWh; None when the bank delivers no energy
+        over the simulated year or its round-trip efficiency is not known
+        (``cost_note`` says which). [currency/kWh]
     cost_of_readiness_per_year : float, optional
-        Standby jobs: annualised cost of keeping the bank ready. [currency/year]
+        Standby jobs: annualised cost of keeping the bank ready, with the float
+        energy the simulated year's float stage draws; None for cyclic jobs,
+        and for a standby bank that never reaches float (``cost_note``). [currency/year]
+    cost_note : str
+        Why a cost figure is missing; empty when none is.
+    float_current_a : float, optional
+        Standby jobs: mean bank current on float over the simulated year (the
+        float-maintenance current behind the cost of readiness). [A]
     year_round_trip_efficiency : float
         Energy out ÷ (energy in − Δstored) over the simulated year, float and
         self-discharge losses included. [-]
@@ -93,13 +104,15 @@ class EvaluatedOption:
     replacements: tuple[int, ...]
     capex: float
     lcos: Any
-    cost_per_kwh: float
+    cost_per_kwh: Optional[float]
     cost_of_readiness_per_year: Optional[float] = None
     year_round_trip_efficiency: float = float("nan")
     standard_cycle: Any = None
     soc_trace: Optional[np.ndarray] = field(default=None, repr=False, compare=False)
     voltage_trace: Optional[np.ndarray] = field(default=None, repr=False, compare=False)
     monthly: Optional[dict] = field(default=None, repr=False, compare=False)
+    cost_note: str = ""
+    float_current_a: Optional[float] = None
 
 
 #: Hours the duty cycle's outage is repeated per year in the standby simulation (common practice,
@@ -182,6 +195,24 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
     list of EvaluatedOption
         Ranked, ``rank`` 1 first.
 
+    Notes
+    -----
+    - The year is simulated with the job's generator (or, for a
+      generator-charged job, one at the charger power:
+      :func:`~benchbook.model.simulate.job_generator`) and the job's charger
+      current limit ``charger_max_current_a`` when it has one.
+    - Cost per delivered kWh (:func:`~benchbook.model.cost.lcos`): the charging
+      price applies to the charging energy the generator did not supply; the
+      generator's share (its energy into the bank ÷ the bank's energy in, from
+      the simulation) is paid by its fuel. No cost per kWh is given, and
+      ``cost_note`` says why, when the bank delivers no energy over the year or
+      its round-trip efficiency is not a number in (0, 1].
+    - Cost of readiness (standby, :func:`~benchbook.model.cost.cost_of_readiness`):
+      the float current is the mean bank current of the simulated year's float
+      stage and the float voltage its mean terminal voltage, i.e. the mean float
+      power held all year. The IEC 62485-2 gas current is a ventilation design
+      value and is used for ventilation only (:mod:`benchbook.model.safety`).
+
     References
     ----------
     Simulation: Manwell & McGowan (1993), Copetti et al. (1993); life: ASTM
@@ -190,13 +221,12 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
     """
     from benchbook.errors import ModelError
     from benchbook.model.catalog import DEFAULT_CATALOG
-    from benchbook.model.cost import bank_capex, cost_of_readiness, lcos, replacement_cost
+    from benchbook.model.cost import bank_capex, replacement_cost
     from benchbook.model.life import service_life
     from benchbook.model.options import enumerate_options
     from benchbook.model.profiles import job_profile
-    from benchbook.model.safety import gas_current_ma_per_ah
     from benchbook.model.efficiency import round_trip_efficiency
-    from benchbook.model.simulate import simulate
+    from benchbook.model.simulate import job_generator, simulate
 
     if rank_by not in RANK_KEYS:
         raise ModelError(f"rank by {rank_by!r}: expected one of {', '.join(RANK_KEYS)}")
@@ -205,10 +235,12 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
     if not opts:
         raise ModelError("no bank option to evaluate")
     profile = standby_profile(job) if job.application == "standby" else job_profile(job)
-    sim = simulate(opts, profile, job.end_voltage_per_cell_v, generator=job.generator,
-                   keep_traces=keep_traces)
+    sim = simulate(opts, profile, job.end_voltage_per_cell_v, generator=job_generator(job),
+                   charger_max_current_a=job_charger_limit_a(job), keep_traces=keep_traces)
     eco = job.economics
     year_rte = round_trip_efficiency(sim, "net_input")
+    year = {k: np.asarray(sim.monthly[k]).sum(axis=0)
+            for k in ("generator_charge_kwh", "float_kwh", "float_ah", "float_hours")}
     out = []
     for i, o in enumerate(opts):
         spec = o.spec
@@ -217,24 +249,23 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
                             avg_temp_c=job.avg_temp_c)
         repl_years = tuple(life.replacements(eco.horizon_years))
         capex = bank_capex(o.blocks, spec.unit_price, eco.install_cost)
-        repl_cost = replacement_cost(o.blocks, spec.unit_price, eco.replacement_labour_per_block)
+        repl = [(y, replacement_cost(o.blocks, spec.unit_price, eco.replacement_labour_per_block))
+                for y in repl_years]
         cycle = standby_cycle(job, o) if job.application == "standby" else None
         rte = cycle.energy if cycle is not None else float(year_rte[i])
-        eta = rte if np.isfinite(rte) else 0.8
         delivered = float(sim.energy_out_kwh[i])
-        cost = lcos(capex=capex, om_per_year=eco.om_per_year, discount_rate=eco.discount_rate,
-                    years=eco.horizon_years, delivered_kwh_per_year=max(delivered, 1e-9),
-                    charge_price_per_kwh=eco.energy_price_per_kwh, round_trip_efficiency=min(max(eta, 1e-6), 1.0),
-                    replacements=[(y, repl_cost) for y in repl_years], fuel_per_year=float(sim.fuel_cost[i]))
-        readiness = None
+        e_in = float(sim.energy_in_kwh[i])
+        # generator energy into the bank over the bank's energy in; min() only absorbs rounding of two sums
+        gen_share = min(float(year["generator_charge_kwh"][i]) / e_in, 1.0) if e_in > 0 else 0.0
+        cost, notes = option_lcos(eco, capex=capex, replacements=repl, delivered_kwh=delivered, rte=rte,
+                                  rte_what=_rte_what(cycle), generator_share=gen_share,
+                                  fuel_per_year=float(sim.fuel_cost[i]))
+        readiness = float_a = None
         if job.application == "standby":
-            float_a = gas_current_ma_per_ah(spec.chemistry, "float") * 1e-3 * spec.c10_ah * o.parallel
-            readiness = cost_of_readiness(
-                capex=capex, om_per_year=eco.om_per_year, discount_rate=eco.discount_rate,
-                years=eco.horizon_years, float_current_a=float_a,
-                float_voltage_v=o.cells * spec.float_voltage_per_cell_v,
-                energy_price_per_kwh=eco.energy_price_per_kwh,
-                replacements=[(y, repl_cost) for y in repl_years]).per_year
+            readiness, float_a, note = option_readiness(
+                eco, capex=capex, replacements=repl, float_ah=float(year["float_ah"][i]),
+                float_hours=float(year["float_hours"][i]), float_kwh=float(year["float_kwh"][i]))
+            notes += [note] if note else []
         out.append(EvaluatedOption(
             rank=0, option=o, round_trip_efficiency=float(rte), year_round_trip_efficiency=float(year_rte[i]),
             standard_cycle=cycle,
@@ -245,48 +276,135 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
             mean_soc=float(sim.mean_soc[i]), days_below_50=float(sim.days_below_50[i]),
             service_life_years=float(life.years), life_limited_by=life.limited_by,
             cycle_life_years=float(life.cycle_life_years), float_life_years=float(life.float_life_years),
-            replacements=repl_years, capex=float(capex), lcos=cost, cost_per_kwh=float(cost.per_kwh),
-            cost_of_readiness_per_year=None if readiness is None else float(readiness),
+            replacements=repl_years, capex=float(capex), lcos=cost,
+            cost_per_kwh=None if cost is None else float(cost.per_kwh),
+            cost_of_readiness_per_year=readiness, cost_note="; ".join(notes), float_current_a=float_a,
             soc_trace=None if sim.soc_trace is None else sim.soc_trace[:, i].copy(),
             voltage_trace=None if sim.voltage_trace is None else sim.voltage_trace[:, i].copy(),
             monthly={k: np.asarray(v)[:, i].copy() for k, v in sim.monthly.items()}))
     return rank_evaluated(out, rank_by, job.application)
 
 
+def job_charger_limit_a(job) -> Optional[float]:
+    """The job's charger current limit for the whole bank, ``job.charger_max_current_a``; None for no limit. [A]"""
+    return job.charger_max_current_a
+
+
+def _rte_what(cycle) -> str:
+    if cycle is None:
+        return "of the simulated year"
+    if not cycle.returned_to_top:
+        return f"of the standard cycle (it did not recharge to {cycle.top_soc:.0%})"
+    return "of the standard cycle"
+
+
+def option_lcos(eco, *, capex: float, replacements, delivered_kwh: float, rte: float, rte_what: str,
+                generator_share: float, fuel_per_year: float):
+    """Cost per delivered kWh of one option, or the reason there is none.
+
+    Parameters
+    ----------
+    eco : Economics
+        The job's economics.
+    capex : float
+        Capital cost at year 0. [currency]
+    replacements : sequence of (float, float)
+        ``(year, cost)`` of each replacement. [years], [currency]
+    delivered_kwh : float
+        Energy the bank delivers in a year. [kWh/year]
+    rte : float
+        Round-trip efficiency behind the charging energy. [-]
+    rte_what : str
+        Which efficiency it is, for the reason text.
+    generator_share : float
+        Share of the charging energy the generator supplied. [-]
+    fuel_per_year : float
+        Generator fuel cost per year. [currency/year]
+
+    Returns
+    -------
+    (LcosResult or None, list of str)
+        The result, or None with the reason: no energy delivered, or an
+        efficiency that is not a number in (0, 1]. No stand-in value is used.
+
+    References
+    ----------
+    Schmidt et al., Joule 3:81–100 (2019) (see :func:`benchbook.model.cost.lcos`).
+    """
+    from benchbook.model.cost import lcos
+
+    if not delivered_kwh > 0:
+        return None, ["the bank delivers no energy over the simulated year: no cost per delivered kWh"]
+    if not (math.isfinite(rte) and 0.0 < rte <= 1.0):
+        return None, [f"round-trip efficiency {rte_what} is {rte!r}, not a fraction above 0 and at most 1: the "
+                      f"charging energy cannot be priced, so no cost per delivered kWh"]
+    res = lcos(capex=capex, om_per_year=eco.om_per_year, discount_rate=eco.discount_rate, years=eco.horizon_years,
+               delivered_kwh_per_year=delivered_kwh, charge_price_per_kwh=eco.energy_price_per_kwh,
+               round_trip_efficiency=rte, replacements=replacements, fuel_per_year=fuel_per_year,
+               generator_share_of_charging=generator_share)
+    return res, []
+
+
+def option_readiness(eco, *, capex: float, replacements, float_ah: float, float_hours: float, float_kwh: float):
+    """Cost of readiness of one standby option from its simulated float stage, or the reason there is none.
+
+    The float current is the mean bank current over the year's float hours
+    (``float_ah / float_hours``) and the float voltage the mean terminal
+    voltage on float (``float_kwh / float_ah``), so the float energy priced is
+    the mean float power held for the whole year.
+
+    Returns
+    -------
+    (float or None, float or None, str)
+        Cost of readiness per year [currency/year], the mean float current
+        [A], and the reason when the bank never reached float (no cost then).
+
+    References
+    ----------
+    Capital recovery factor: NREL/TP-462-5173 (1995) (from memory); float
+    operation: IEEE 1188 / IEEE 450 (from memory). See
+    :func:`benchbook.model.cost.cost_of_readiness`.
+    """
+    from benchbook.model.cost import cost_of_readiness
+
+    if not (float_hours > 0 and float_ah > 0):
+        return None, None, ("the charger never brought the bank to float in the simulated year: it is not kept "
+                            "ready, so no cost of readiness")
+    amps = float_ah / float_hours
+    res = cost_of_readiness(capex=capex, om_per_year=eco.om_per_year, discount_rate=eco.discount_rate,
+                            years=eco.horizon_years, float_current_a=amps, float_voltage_v=float_kwh * 1000.0 / float_ah,
+                            energy_price_per_kwh=eco.energy_price_per_kwh, replacements=replacements)
+    return float(res.per_year), float(amps), ""
+
+
 def standby_cycle(job, option):
     """One standard cycle of a standby bank at its duty cycle's mean current and depth.
 
-    Discharge: the duty cycle's Ah-weighted mean bank current, to the depth the
-    duty cycle takes out (its Ah over the bank's C10, at most 80 %). Recharge:
-    the charger's power left after the plant's continuous load, at the float
-    voltage, capped at the battery's maximum charge current per string.
+    The rates of :func:`benchbook.model.jobcycle.job_cycle_rates` (standby):
+    discharge at the duty cycle's Ah-weighted mean bank current, to the depth
+    the duty cycle takes out; recharge with the charger's power left after the
+    plant's continuous load, at the float voltage, within the battery's and the
+    charger's current limits.
 
     Returns
     -------
     CycleEfficiency
         See :func:`benchbook.model.efficiency.cycle_efficiency`.
     """
-    from benchbook.model.efficiency import cycle_efficiency
+    from benchbook.model.jobcycle import job_cycle
 
-    spec = option.spec
-    ah = sum(p.current_a * p.minutes for p in job.duty_cycle) / 60.0
-    hours = sum(p.minutes for p in job.duty_cycle) / 60.0
-    depth = float(min(0.8, max(0.02, ah / (spec.c10_ah * option.parallel))))
-    v_float = option.cells * spec.float_voltage_per_cell_v
-    base_w = job.duty_cycle[-1].current_a * job.system_voltage_v
-    surplus = (float(job.charger_power_w) - base_w) / v_float if job.charger_power_w else 0.1 * spec.c10_ah
-    charge_a = float(min(max(surplus, 0.02 * spec.c10_ah * option.parallel),
-                         spec.max_charge_current_a * option.parallel))
-    return cycle_efficiency(spec, option.series, option.parallel, depth=depth, discharge_current_a=ah / hours,
-                            charge_current_a=charge_a, temp_c=job.avg_temp_c,
-                            end_voltage_per_cell_v=job.end_voltage_per_cell_v)
+    return job_cycle(job, option)
 
 
 RANK_KEYS = ("cost", "unserved", "price", "weight")
 
 
 def rank_evaluated(evaluated, rank_by: str = "cost", application: str = "cyclic") -> list[EvaluatedOption]:
-    """Rank evaluated options; options that do not meet the requirement come last."""
+    """Rank evaluated options; options that do not meet the requirement come last.
+
+    Among the rest, an option whose ranking figure is None (no cost figure,
+    see ``EvaluatedOption.cost_note``) comes after those that have one.
+    """
     from dataclasses import replace
 
     def key(e: EvaluatedOption):
@@ -298,7 +416,8 @@ def rank_evaluated(evaluated, rank_by: str = "cost", application: str = "cyclic"
             v = e.option.price
         else:
             v = e.option.weight_kg
-        return (not e.option.feasible, v, e.option.price)
+        # an option with no cost figure (see cost_note) ranks after those with one
+        return (not e.option.feasible, v is None, 0.0 if v is None else v, e.option.price)
 
     ranked = sorted(evaluated, key=key)
     return [replace(e, rank=i + 1) for i, e in enumerate(ranked)]

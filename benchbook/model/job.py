@@ -138,6 +138,9 @@ class Job:
         Monthly mean daily charging energy available from the array, DC side. [kWh/day]
     charger_power_w : float, optional
         Charger power for grid or generator charging. [W]
+    charger_max_current_a : float, optional
+        Largest current the charger puts into the whole bank; None for no
+        limit beyond the battery's own maximum charge current. [A]
     generator : Generator, optional
         Backup generator.
     latitude_deg : float
@@ -173,6 +176,7 @@ class Job:
     charge_source: str = "grid"
     solar_kwh_per_day_by_month: Optional[tuple[float, ...]] = None
     charger_power_w: Optional[float] = None
+    charger_max_current_a: Optional[float] = None
     generator: Optional[Generator] = None
     latitude_deg: float = 45.0
     hourly: Optional[HourlyProfile] = None

@@ -9,6 +9,7 @@ parallel strings (the job's bank current splits over the strings).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from benchbook.model.battery import CELL_NOMINAL_V
@@ -47,10 +48,13 @@ def job_cycle_rates(job, option) -> JobCycleRates:
     Standby jobs: discharge at the duty cycle's Ah-weighted mean bank current,
     to the depth its Ah take out of the bank's C10 (at most 80 %); recharge with
     the charger's power left after the plant's continuous load (the duty
-    cycle's last period) at the float voltage, or C/10 when no charger is stated.
+    cycle's last period) at the float voltage; with no charger stated, a charger
+    of twice the continuous load, as :func:`benchbook.model.evaluate.standby_profile`
+    assumes for the year.
 
-    Every recharge current is capped at the battery's maximum charge current
-    per string and kept at C/50 or more per string, so the cycle ends.
+    Every recharge current is kept at C/50 or more per string, so the cycle
+    ends, then capped at the battery's maximum charge current per string and
+    at the job's charger current limit.
 
     Returns
     -------
@@ -70,13 +74,13 @@ def job_cycle_rates(job, option) -> JobCycleRates:
         hours = sum(d.minutes for d in job.duty_cycle) / 60.0
         depth = min(MAX_DEPTH, max(MIN_DEPTH, ah / c10))
         discharge = ah / hours
-        if job.charger_power_w:
-            base_w = job.duty_cycle[-1].current_a * job.system_voltage_v
-            charge = (float(job.charger_power_w) - base_w) / (option.cells * spec.float_voltage_per_cell_v)
-            basis = "duty cycle's mean current; charger's power left after the continuous load"
-        else:
-            charge = 0.1 * c10
-            basis = "duty cycle's mean current; C/10 recharge (no charger stated)"
+        base_w = job.duty_cycle[-1].current_a * job.system_voltage_v
+        # no charger stated: twice the continuous load, as the standby year assumes
+        # (benchbook.model.evaluate.standby_profile)
+        charger_w = float(job.charger_power_w) if job.charger_power_w else 2.0 * base_w
+        charge = (charger_w - base_w) / (option.cells * spec.float_voltage_per_cell_v)
+        basis = ("duty cycle's mean current; charger's power left after the continuous load" if job.charger_power_w
+                 else "duty cycle's mean current; a charger of twice the continuous load (none stated)")
     else:
         volts = option.cells * CELL_NOMINAL_V
         discharge = max(job.mean_dc_power_w, 1e-6) / volts
@@ -88,7 +92,8 @@ def job_cycle_rates(job, option) -> JobCycleRates:
         else:
             charge = day_ah / SOLAR_CHARGE_HOURS
             basis = f"mean DC load; the day's charge back in {SOLAR_CHARGE_HOURS:g} h of sun"
-    charge = min(max(charge, 0.02 * c10), spec.max_charge_current_a * p)
+    limit = math.inf if job.charger_max_current_a is None else float(job.charger_max_current_a)
+    charge = min(max(charge, 0.02 * c10), spec.max_charge_current_a * p, limit)
     return JobCycleRates(discharge_a=float(discharge), charge_a=float(charge), depth=float(depth), basis=basis)
 
 

@@ -104,6 +104,45 @@ def rainflow_cycles(series: Sequence[float], repeating: bool = False) -> list[tu
             if rng > 0]
 
 
+def dod_cycles(soc: Sequence[float], repeating: bool = False) -> list[tuple[float, float]]:
+    """Depth-of-discharge cycles of a state-of-charge history, by rainflow counting.
+
+    The depth-of-discharge history ``1 − SOC`` is counted by
+    :func:`rainflow_cycles`; each cycle's range is its depth of discharge.
+
+    Parameters
+    ----------
+    soc : sequence of float
+        State of charge over time, fractions from 0 to 1. [-]
+    repeating : bool, default False
+        Count the history as one period of a repeating one (see
+        :func:`rainflow_cycles`); :func:`service_life` counts a simulated year
+        this way.
+
+    Returns
+    -------
+    list of (float, float)
+        ``(depth_of_discharge_fraction, count)``, count 0.5 or 1, ready for
+        :func:`miner_damage`. [-], [cycles]
+
+    Raises
+    ------
+    ModelError
+        For a state of charge outside [0, 1] (beyond 1e-9) or not finite, or
+        a series that is not one-dimensional.
+
+    References
+    ----------
+    ASTM E1049-85 §5.4.4 (rainflow counting), §5.4.5 (repeating histories);
+    cycle depth as the rainflow range: common practice, no source.
+    """
+    x = _series(soc, "state-of-charge trace")
+    if x.size and (x.min() < -1e-9 or x.max() > 1 + 1e-9):
+        k = int(np.flatnonzero((x < -1e-9) | (x > 1 + 1e-9))[0])
+        raise ModelError(f"state-of-charge trace: value {x[k]!r} at position {k}; expected a fraction from 0 to 1")
+    return rainflow_cycles(1.0 - np.clip(x, 0.0, 1.0), repeating=repeating)
+
+
 def cycle_life_fit(table: Sequence[tuple[float, float]]) -> tuple[float, float]:
     """Fit a Wöhler-type power law ``N(DoD) = n100 · DoD**-b`` to a cycle-life table.
 
@@ -392,7 +431,7 @@ def service_life(soc: Sequence[float], *, cycle_life: Sequence[tuple[float, floa
     """Service life from a simulated state-of-charge trace and the float life.
 
     The depth-of-discharge trace ``1 − SOC`` is counted by rainflow as one
-    period of a repeating history (:func:`rainflow_cycles` with
+    period of a repeating history (:func:`dod_cycles` with
     ``repeating=True``); each cycle's range is its depth. Miner's rule against
     the fitted cycle-life law gives the damage per year, and the cycle life
     is the years to damage 1. The service life is the lower of that and the
@@ -436,16 +475,12 @@ def service_life(soc: Sequence[float], *, cycle_life: Sequence[tuple[float, floa
     12:A159 (1945) (Miner's rule); Wöhler-type cycle-life law and float-life
     halving per 10 °C: common practice, no source.
     """
-    x = _series(soc, "state-of-charge trace")
-    if x.size and (x.min() < -1e-9 or x.max() > 1 + 1e-9):
-        k = int(np.flatnonzero((x < -1e-9) | (x > 1 + 1e-9))[0])
-        raise ModelError(f"state-of-charge trace: value {x[k]!r} at position {k}; expected a fraction from 0 to 1")
+    cycles = dod_cycles(soc, repeating=True)
     if not _finite(trace_years) or trace_years <= 0:
         raise ModelError(f"trace_years: found {trace_years!r}; expected the years the trace covers, above 0")
     n100, b = cycle_life_fit(cycle_life)
     fl = float_life_years(design_life_25c_years, avg_temp_c, halving_step_c,
                           float_overvoltage_per_cell_v, overvoltage_halving_per_cell_v)
-    cycles = rainflow_cycles(1.0 - np.clip(x, 0.0, 1.0), repeating=True)
     damage = miner_damage(cycles, n100, b) / trace_years
     per_year = sum(c for _r, c in cycles) / trace_years
     cl = math.inf if damage == 0 else 1.0 / damage

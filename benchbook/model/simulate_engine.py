@@ -32,6 +32,14 @@ _cnz = np.count_nonzero
 #: Per-option totals a result carries (besides the monthly ones).
 _SUMS = ("unserved_hours", "available_charge_kwh", "generator_hours", "generator_starts", "charge_in_ah",
          "charge_out_ah", "soc_hours", "days_below_50")
+#: Monthly series kept in ``SimResult.monthly`` only (no total field): charge stored (after the charge
+#: efficiency) and lost to self-discharge [Ah]; generator energy that went into the bank [kWh]; energy [kWh],
+#: charge [Ah] and hours [h] of the float stage (steps begun on float with the bank taking charge).
+_EXTRA = ("stored_ah", "self_discharge_ah", "generator_charge_kwh", "float_kwh", "float_ah", "float_hours")
+#: Absorption ends when the charge current, held down by the absorption voltage (not by the source or a
+#: current limit), has fallen to this fraction of C10 in amperes: 0.01 is 1 A per 100 Ah (common practice,
+#: no source). [1/h]
+ABSORPTION_END_C10 = 0.01
 
 
 class _Engine:
@@ -56,27 +64,31 @@ class _Engine:
         self.inv_i10 = 10.0 * self.inv_c10
         self.s4, self.s6 = 4.0 * col["rate_scale"], 6.0 * col["rate_scale"]
         self.vabs, self.tcomp, self.imax = col["absorption_v"], col["temp_comp_v_per_c"], col["max_charge_a"]
+        self.vfl, self.itail = col["float_v"], col["i_tail"]
         self.sd_dt = col["self_discharge_per_h"] * self.dt
         self.soc0 = initial_soc
         self.q1 = initial_soc * self.cqm
         self.q2 = initial_soc * (self.qm - self.cqm)
         self.gen_on = np.zeros(n, dtype=bool)
+        self.FLOAT = np.zeros(n, dtype=bool)          # charger stage: False = bulk/absorption, True = float
+        self.END = np.zeros(n, dtype=bool)            # absorption ended in this step
         spd = profile.steps_per_day
         f = lambda: np.empty((spd, n))  # noqa: E731
         self.V, self.ID, self.IC, self.ST, self.QB, self.SOCS = f(), f(), f(), f(), f(), f()
         self.Q0 = np.empty((spd + 1, n))      # charge at the start of each step, and at the day's end
-        self.S1, self.S2, self.S3 = f(), f(), f()     # scratch for the day's bookkeeping
+        self.S1, self.S2, self.S3, self.S4 = f(), f(), f(), f()     # scratch for the day's bookkeeping
         self.IB = np.empty((spd, n), dtype=np.int64)
         self.DROP = np.zeros((spd, n), dtype=bool)
         self.GEN = np.zeros((spd, n), dtype=bool)
+        self.FL = np.zeros((spd, n), dtype=bool)      # charger on float during the step
         w = lambda: np.empty(n)  # noqa: E731
         (self.SOC, self.E, self.BASE, self.P, self.N0, self.T1, self.T2, self.T3, self.RD, self.CUR, self.V0,
-         self.SRC, self.NET, self.ETA) = (w() for _ in range(14))
+         self.SRC, self.NET, self.ETA, self.PL, self.VSET) = (w() for _ in range(16))
         self.OK, self.B1, self.DIS, self.CHG = (np.empty(n, dtype=bool) for _ in range(4))
         # bookkeeping
         days = -(-profile.steps // spd)
         self.month_of_day = _month_index(days)
-        self.monthly = {k: np.zeros((12, n)) for k in _MONTHLY if k != "losses_kwh"}
+        self.monthly = {k: np.zeros((12, n)) for k in _MONTHLY + _EXTRA if k != "losses_kwh"}
         self.sums = {k: np.zeros(n) for k in _SUMS}
         self.dmin, self.dmax = np.empty((days, n)), np.empty((days, n))
         self.dfirst = np.empty((days, n), dtype=bool)
@@ -101,7 +113,8 @@ class _Engine:
                    self.inv_c10 * (1.0 - 0.025 * d_t),                 # charge factor / C10
                    self.vabs + self.tcomp * d_t,                       # compensated absorption voltage
                    floor * self.cqm if floor > 0.0 else None,          # cold-capacity floor of q1
-                   1.0 - self.sd_dt * 2.0 ** (d_t / 10.0))          # self-discharge factor
+                   1.0 - self.sd_dt * 2.0 ** (d_t / 10.0),          # self-discharge factor
+                   self.vfl + self.tcomp * d_t)                        # compensated float voltage
             if len(self._temp_cache) < 4096:
                 self._temp_cache[temp_c] = hit
         return hit
@@ -116,7 +129,7 @@ class _Engine:
         q1, q2, inv_qm, slope_qm, r, c_omr = self.q1, self.q2, self.inv_qm, self.slope_qm, self.r, self.c_omr
         E, BASE, T1, T2, NET, SRC = self.E, self.BASE, self.T1, self.T2, self.NET, self.SRC
         DIS, CHG, B1 = self.DIS, self.CHG, self.B1
-        dk, gen_on = self.dk, self.gen_on
+        dk, gen_on, FLOAT, END, VSET, n = self.dk, self.gen_on, self.FLOAT, self.END, self.VSET, self.n
         with np.errstate(divide="ignore"):
             for t in range(steps):
                 j = t % spd
@@ -132,6 +145,16 @@ class _Engine:
                 _add(BASE, T1, BASE)                                # q1 after the step at zero current
                 v, i_d, i_c, st, drop = self.V[j], self.ID[j], self.IC[j], self.ST[j], self.DROP[j]
                 load, avail = loads[t], avails[t]
+                np.copyto(self.FL[j], FLOAT)                        # the charger's stage during the step
+                n_fl = _cnz(FLOAT)
+                if n_fl == 0:
+                    vset = tc[3]                                    # set point: absorption ...
+                elif n_fl == n:
+                    vset = tc[6]                                    # ... or float voltage
+                else:
+                    np.copyto(VSET, tc[3])
+                    np.copyto(VSET, tc[6], where=FLOAT)
+                    vset = VSET
                 if gen is None:
                     net = avail - load
                     if net < 0.0:
@@ -139,15 +162,19 @@ class _Engine:
                         self._discharge(-net, None, tc, v, i_d, drop)
                         if avail > 0.0 and _cnz(drop):
                             _mul(drop, avail * self.inv_bank, self.P)
-                            self._charge(self.P, drop, tc, v, i_c, st)
+                            self._charge(self.P, drop, tc[2], vset, v, i_c, st)
+                            _or(FLOAT, END, FLOAT)                  # absorption ended: float from now on
                         else:
                             i_c.fill(0.0)
                             st.fill(0.0)
+                        _le(i_d, 0.0, B1)
+                        _and(FLOAT, B1, FLOAT)                      # a discharge sends the charger back to bulk
                     else:
                         drop.fill(False)
                         if net > 0.0:
                             _mul(self.inv_bank, net, self.P)
-                            self._charge(self.P, None, tc, v, i_c, st)
+                            self._charge(self.P, None, tc[2], vset, v, i_c, st)
+                            _or(FLOAT, END, FLOAT)
                         else:
                             np.copyto(v, E)
                             i_c.fill(0.0)
@@ -167,6 +194,8 @@ class _Engine:
                     if _cnz(DIS):
                         self._discharge(None, DIS, tc, v, i_d, drop)
                         np.copyto(NET, SRC, where=drop)             # load disconnected: the sources charge
+                        _le(i_d, 0.0, B1)
+                        _and(FLOAT, B1, FLOAT)                      # a discharge sends the charger back to bulk
                     else:
                         i_d.fill(0.0)
                         drop.fill(False)
@@ -174,7 +203,8 @@ class _Engine:
                     if _cnz(CHG):
                         _max(NET, 0.0, out=self.P)
                         _mul(self.P, self.inv_bank, self.P)
-                        self._charge(self.P, CHG, tc, v, i_c, st)
+                        self._charge(self.P, CHG, tc[2], vset, v, i_c, st)
+                        _or(FLOAT, END, FLOAT)                      # absorption ended: float from now on
                     else:
                         i_c.fill(0.0)
                         st.fill(0.0)
@@ -243,24 +273,31 @@ class _Engine:
         _mul(CUR, OK, i_d)
         np.copyto(v, T3, where=OK)
 
-    def _charge(self, P, mask, tc: tuple, v, i_c, st) -> None:
-        """Charge all options, or those in ``mask``: few of them are gathered and charged on their own."""
+    def _charge(self, P, mask, rc_factor, vset, v, i_c, st) -> None:
+        """Charge all options, or those in ``mask``: few of them are gathered and charged on their own.
+
+        ``rc_factor`` is the charge factor / C10 of the temperature, ``vset`` the
+        charger's compensated set-point voltage per option; ``self.END`` says
+        where absorption ended in this step.
+        """
         if mask is not None:
             idx = np.flatnonzero(mask)
             if idx.size < 0.3 * self.n:
                 w = self.sub.view(idx.size)
-                for name in ("SOC", "E", "BASE", "inv_i10", "s6", "imax", "cqm", "kd"):
+                for name in ("SOC", "E", "BASE", "inv_i10", "s6", "imax", "cqm", "kd", "itail"):
                     setattr(w, name, getattr(self, name)[idx])
                 ic, sc, vc = np.empty(idx.size), np.empty(idx.size), np.empty(idx.size)
-                _charge_kernel(w, P[idx], tc[2][idx], tc[3][idx], ic, sc, vc)
+                ec = np.empty(idx.size, dtype=bool)
+                _charge_kernel(w, P[idx], rc_factor[idx], vset[idx], ic, sc, vc, ec)
                 i_c.fill(0.0)
                 st.fill(0.0)
-                i_c[idx], st[idx], v[idx] = ic, sc, vc
+                self.END.fill(False)
+                i_c[idx], st[idx], v[idx], self.END[idx] = ic, sc, vc, ec
                 return
-            _charge_kernel(self, P, tc[2], tc[3], i_c, st, self.T3)
+            _charge_kernel(self, P, rc_factor, vset, i_c, st, self.T3, self.END)
             np.copyto(v, self.T3, where=mask)
         else:
-            _charge_kernel(self, P, tc[2], tc[3], i_c, st, v)
+            _charge_kernel(self, P, rc_factor, vset, i_c, st, v, self.END)
 
     # ---- one day's bookkeeping -------------------------------------------------------------------------
     def _add_day(self, t0: int, m: int) -> None:
@@ -268,11 +305,18 @@ class _Engine:
         q0, v, i_d, i_c, st, qb = self.Q0[:m], self.V[:m], self.ID[:m], self.IC[:m], self.ST[:m], self.QB[:m]
         qc = self.Q0[1:m + 1]                               # after self-discharge = next step's start
         drop, soc = self.DROP[:m], self.SOCS[:m]
-        S1, S2, S3, IB = self.S1[:m], self.S2[:m], self.S3[:m], self.IB[:m]
+        S1, S2, S3, S4, IB = self.S1[:m], self.S2[:m], self.S3[:m], self.S4[:m], self.IB[:m]
         kwh = bank * (dt / 1000.0)
         sl = slice(t0, t0 + m)
         ein = np.einsum("ij,ij->j", v, i_c)
         M["energy_in_kwh"][mo] += ein * kwh
+        _mul(i_c, self.FL[:m], S3)                          # charge current of the steps on float
+        M["float_kwh"][mo] += np.einsum("ij,ij->j", v, S3) * kwh
+        M["float_ah"][mo] += S3.sum(axis=0) * (dt * self.par)
+        M["float_hours"][mo] += np.count_nonzero(S3 > 0.0, axis=0) * dt
+        M["stored_ah"][mo] += st.sum(axis=0) * (dt * self.par)
+        _sub(qb, qc, S3)
+        M["self_discharge_ah"][mo] += S3.sum(axis=0) * self.par
         M["energy_out_kwh"][mo] += np.einsum("ij,ij->j", v, i_d) * kwh
         _sub(i_c, i_d, S1)                                  # I_c − I_d
         _add(q0, qb, S2)
@@ -312,6 +356,10 @@ class _Engine:
             _sub(S2, S3, S2)
             _max(S2, 0.0, out=S2)
             M["generator_kwh"][mo] += S2.sum(axis=0) * (dt / 1000.0)
+            _mul(v, i_c, S4)
+            _mul(S4, bank, S4)                              # power into the bank [W] ...
+            _min(S4, S2, out=S4)                            # ... of which from the generator
+            M["generator_charge_kwh"][mo] += S4.sum(axis=0) * (dt / 1000.0)
             s["generator_hours"] += np.count_nonzero(gen_on, axis=0) * dt
             s["generator_starts"] += gen_on[0] & ~self.prev_gen
             if m > 1:
@@ -344,7 +392,7 @@ class _Engine:
         monthly = dict(self.monthly)
         monthly["losses_kwh"] = (monthly["coulombic_loss_kwh"] + monthly["resistive_loss_kwh"]
                                  + monthly["self_discharge_loss_kwh"])
-        tot = {k: a.sum(axis=0) for k, a in monthly.items() if k != "losses_kwh"}
+        tot = {k: a.sum(axis=0) for k, a in monthly.items() if k != "losses_kwh" and k not in _EXTRA}
         tr = self.traces
         return SimResult(
             options=tuple((sp.model, int(se), int(pa)) for sp, se, pa in opts), step_h=self.dt,
@@ -365,7 +413,7 @@ class _Engine:
 class _Scratch:
     """Work arrays for a gathered subset of options: views of the first ``m`` elements of full-size ones."""
 
-    _NAMES = ("N0", "T1", "T2", "T3", "RD", "V0", "ETA")
+    _NAMES = ("N0", "T1", "T2", "T3", "RD", "V0", "ETA", "PL")
 
     def __init__(self, n: int):
         self._full = {k: np.empty(n) for k in self._NAMES}
@@ -378,14 +426,18 @@ class _Scratch:
         return w
 
 
-def _charge_kernel(w, P, rc_factor, v_abs, i_c, st, v) -> None:
-    """Charge current: source power, absorption taper, current limits, Copetti η, KiBaM acceptance.
+def _charge_kernel(w, P, rc_factor, v_set, i_c, st, v, end) -> None:
+    """Charge current: source power, current limits, set-point taper, Copetti η, KiBaM acceptance.
 
     ``w`` holds the state (SOC, E, BASE), the constants and the work arrays of
-    the options concerned; ``P`` is the charging power per cell [W]; the
-    results go to ``i_c`` (terminal current), ``st`` (stored current) and ``v``.
+    the options concerned; ``P`` is the charging power per cell [W];
+    ``v_set`` the charger's set point per cell (absorption or float) [V]; the
+    results go to ``i_c`` (terminal current), ``st`` (stored current), ``v``
+    and ``end`` (True where the bank, not the source or a current limit, held
+    the current at or below the absorption-end current ``w.itail``).
     """
     N0, T1, T2, T3, RC, V0, ETA, B1, E, SOC = w.N0, w.T1, w.T2, w.T3, w.RD, w.V0, w.ETA, w.B1, w.E, w.SOC
+    PL = w.PL
     _min(SOC, SOC_CEILING, out=T2)
     _mul(T2, 0.16, V0)
     _add(V0, 2.0, V0)                                       # 2 + 0.16 SOC
@@ -412,11 +464,11 @@ def _charge_kernel(w, P, rc_factor, v_abs, i_c, st, v) -> None:
     _add(T2, V0, T2)
     _div(P, T2, i_c)
     _mul(i_c, 2.0, i_c)                                     # power-limited current
-    _sub(v_abs, V0, T2)
+    _min(i_c, w.imax, out=PL)                               # battery and charger limits
+    _sub(v_set, V0, T2)
     _div(T2, RC, T2)
-    _max(T2, 0.0, out=T2)                                   # absorption taper (V_abs − V0)/R_c
-    _min(i_c, T2, out=i_c)
-    _min(i_c, w.imax, out=i_c)                              # battery and charger limits
+    _max(T2, 0.0, out=T2)                                   # set-point taper (V_set − V0)/R_c
+    _min(PL, T2, out=i_c)
     _mul(i_c, w.inv_i10, T2)
     _add(T2, 0.55, T2)
     _sub(SOC, 1.0, T3)
@@ -437,5 +489,7 @@ def _charge_kernel(w, P, rc_factor, v_abs, i_c, st, v) -> None:
         np.copyto(st, T2, where=B1)
     _mul(RC, i_c, v)
     _add(v, V0, v)
-
+    _lt(i_c, PL, end)                                       # held down by the bank ...
+    _le(i_c, w.itail, B1)
+    _and(end, B1, end)                                      # ... to the absorption-end current
 

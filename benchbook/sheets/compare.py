@@ -84,10 +84,15 @@ def _sc(r: Any) -> float:
     return bank_short_circuit(o.spec.cells_per_block, o.spec.internal_resistance_ohm, o.series, o.parallel).current_a
 
 
+def _flags_text(r: Any) -> str:
+    """The option's flags, and why it has no cost figure when it has none."""
+    return "; ".join([*r.option.flags, *([r.cost_note] if r.cost_note else [])])
+
+
 def metrics(currency: str) -> tuple[Metric, ...]:
     """Rows of the summary, in order. Labels carry units; ``currency`` labels the cost rows."""
     c = currency
-    lc = lambda name: (lambda r: float(getattr(r.lcos, name)))  # noqa: E731
+    lc = lambda name: (lambda r: None if r.lcos is None else float(getattr(r.lcos, name)))  # noqa: E731
     share = "{%s}/{delivered_pv}"
     return (
         Metric("battery", "Battery", "text", lambda r: r.option.spec.model, section="Configuration"),
@@ -145,7 +150,7 @@ def metrics(currency: str) -> tuple[Metric, ...]:
                best="min"),
         Metric("opening", "Natural-vent opening each, boost [cm²]", "#,##0", formula="28*{airflow}", best="min"),
         Metric("short", "Prospective short-circuit current [A]", "#,##0", _sc, best="min"),
-        Metric("flags", "Flags", "wrap", lambda r: "; ".join(r.option.flags) or "none"),
+        Metric("flags", "Flags", "wrap", lambda r: _flags_text(r) or "none"),
     )
 
 
@@ -318,6 +323,7 @@ def _write_all(wb, job: Any, records: list, hourly: bool, profile: Any) -> None:
         r += 1
     last_row = r - 1
     ok_cols = [1 + j for j, rec in enumerate(records) if rec.option.feasible]  # options that meet the requirement
+    missing: list[set] = [set() for _ in records]  # per option: rows with no figure ("n/a"), and rows built on them
     r = head + 1
     for kind, item in layout:
         if kind == "section":
@@ -328,12 +334,15 @@ def _write_all(wb, job: Any, records: list, hourly: bool, profile: Any) -> None:
             continue
         m: Metric = item
         if m.key == "flags":  # 8 pt text wrapped in a 110 px column: about 30 characters a line
-            ws.set_row(r, 11 * max(1, max(math.ceil(len("; ".join(rec.option.flags)) / 30) for rec in records)) + 4)
+            ws.set_row(r, 11 * max(1, max(math.ceil(len(_flags_text(rec)) / 30) for rec in records)) + 4)
         ws.write_string(r, 0, m.label, f["label"])
         fmt = f["cell"](m.fmt)
         for j, rec in enumerate(records):
             col = 1 + j
-            if m.formula:
+            if m.formula and any("{%s}" % k in m.formula for k in missing[j]):
+                missing[j].add(m.key)  # a formula over a figure that does not exist: no figure either
+                ws.write_string(r, col, "n/a", fmt)
+            elif m.formula:
                 refs = {k: xl_rowcol_to_cell(row_of[k], col) for k in row_of}
                 ws.write_formula(r, col, "=" + m.formula.format(**refs), fmt, "")
             else:
@@ -341,6 +350,7 @@ def _write_all(wb, job: Any, records: list, hourly: bool, profile: Any) -> None:
                 if isinstance(v, str):
                     ws.write_string(r, col, v, fmt)
                 elif v is None or (isinstance(v, float) and not math.isfinite(v)):
+                    missing[j].add(m.key)
                     ws.write_string(r, col, "n/a", fmt)
                 else:
                     ws.write_number(r, col, float(v), fmt)

@@ -60,10 +60,12 @@ class DemoResult:
             lines.append(f"  options evaluated: {len(d.evaluated)}; recommended #1: {o.model} "
                          f"{o.series} x {o.parallel} = {o.blocks} blocks, usable {o.usable_kwh:.1f} kWh "
                          f"at the design rate and {job.min_temp_c:g} °C, parallel gain {o.parallel_gain:.3f}")
-            if job.application == "standby":
+            if job.application == "standby" and best.cost_of_readiness_per_year is not None:
                 money = f"cost of readiness {best.cost_of_readiness_per_year:,.0f} {cur}/year"
-            else:
+            elif job.application != "standby" and best.cost_per_kwh is not None:
                 money = f"cost per delivered kWh {best.cost_per_kwh:.3f} {cur}"
+            else:
+                money = f"no cost figure ({best.cost_note})"
             lines.append(f"  round-trip efficiency {best.round_trip_efficiency:.1%}, service life "
                          f"{best.service_life_years:.1f} years ({best.life_limited_by}), {money}")
             lines.append(f"  quote grand total {d.grand_total:,.2f} {cur}")

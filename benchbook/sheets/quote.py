@@ -147,11 +147,13 @@ def quote_values(job: Any, record: Any, terms: QuoteTerms) -> dict[str, Any]:
         "quote_life_limited_by": str(record.life_limited_by),
         "quote_replacements": _replacements_text(tuple(record.replacements)),
         "quote_horizon_years": int(job.economics.horizon_years),
-        "quote_cost_per_kwh": float(record.cost_per_kwh),
+        "quote_cost_per_kwh": (float(record.cost_per_kwh) if record.cost_per_kwh is not None
+                               else f"not available ({record.cost_note})"),
         "quote_unserved_kwh": float(record.unserved_kwh),
         "quote_cost_of_readiness": (float(record.cost_of_readiness_per_year)
                                     if record.cost_of_readiness_per_year is not None
-                                    else f"not applicable ({job.application} job)"),
+                                    else f"not applicable ({job.application} job)" if job.application != "standby"
+                                    else f"not available ({record.cost_note})"),
         "quote_discount_rate": float(terms.discount_rate),
         "quote_tax_rate": float(terms.tax_rate),
         "quote_weight_kg": float(opt.weight_kg),
