@@ -4,7 +4,9 @@ Each subcommand parses its arguments, calls one library function, prints the
 result and maps errors to exit codes: ``Error: …`` and exit 2 for bad input
 (any :class:`~benchbook.errors.BenchbookError`), exit 1 for an internal error.
 No traceback is shown for bad input; set ``BENCHBOOK_DEBUG=1`` to see one for an
-internal error.
+internal error. What the readers notice in an input workbook (macros, external
+or DDE links, hidden sheets) is printed on stderr as ``Warning: …`` lines after
+the output (``check`` lists it among its findings instead).
 """
 
 from __future__ import annotations
@@ -62,7 +64,8 @@ def build_parser() -> argparse.ArgumentParser:
                                    "as an invented crew would and check them against the model.")
     p.add_argument("outdir", help="empty folder for every output")
     p.add_argument("--no-pdf", action="store_true", help="do not print the quotes to PDF")
-    _add_force(p)
+    p.add_argument("--force", action="store_true",
+                   help="write into a folder that is not empty, overwriting earlier demo outputs")
     p.set_defaults(handler=_cmd_demo)
 
     p = sub.add_parser("new", help="write a blank job workbook to fill in",
@@ -133,6 +136,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print the findings as JSON")
     p.add_argument("--workers", type=int, help="processes for a folder (default: the number of CPUs)")
     _add_force(p)
+    _add_thresholds(p)
     p.set_defaults(handler=_cmd_check)
 
     p = sub.add_parser("template-check", parents=[limits], help="check a template against the template contract",
@@ -211,11 +215,98 @@ def _cmd_fieldsheet(args: argparse.Namespace) -> int:
     return 0
 
 
+# ---- check: thresholds --------------------------------------------------------------------------
+# (criteria, field, metavar, low, high, low_open, what, source); each option is named after the field of
+# CapacityCriteria / ReadingsCriteria it sets, as the JSON output's "criteria" names it, and shows its default.
+_THRESHOLDS = (
+    ("capacity", "replace_below_percent", "PCT", 0, 100, True,
+     "replace the bank below this capacity at 25 °C", "IEEE 450"),
+    ("capacity", "test_yearly_below_percent", "PCT", 0, 100, True,
+     "test yearly below this capacity at 25 °C", "IEEE 450, from memory"),
+    ("capacity", "max_drop_points", "PCT", 0, 100, True,
+     "test yearly after a drop of more than this many points since the previous test",
+     "IEEE 450, from memory"),
+    ("capacity", "end_voltage_tolerance_v_per_cell", "V", 0, 0.5, False,
+     "a last reading this close to the end voltage ended the test [V/cell]", "common practice"),
+    ("capacity", "rated_time_tolerance_min", "MIN", 0, 60, False,
+     "an end this close to the rated time counts as stopped at the rated time [min]", "common practice"),
+    ("capacity", "early_fraction", "F", 0, 1, True,
+     "a block at its end voltage before this fraction of the test fell away early", "common practice"),
+    ("capacity", "current_tolerance", "F", 0, 1, False,
+     "largest mean deviation of the logged current from the test current, as a fraction",
+     "common practice"),
+    ("readings", "sg_below_mean", "SG", 0, 0.2, True,
+     "equalize when a cell's corrected SG is more than this below the mean", "common practice"),
+    ("readings", "min_float_v_per_cell", "V", 1.8, 2.6, False,
+     "equalize when a block floats below this [V/cell]", "common practice"),
+    ("readings", "float_deviation_v_per_cell", "V", 0, 0.5, True,
+     "flag a float voltage this far from its string's mean [V/cell]", "common practice"),
+    ("readings", "sg_spread", "SG", 0, 0.2, True,
+     "flag a corrected-SG spread (max - min) above this", "common practice; manuals give 0.025-0.050"),
+    ("readings", "temp_spread_c", "C", 0, 30, True,
+     "flag a cell-to-cell temperature spread above this [°C]", "common practice"),
+    ("readings", "above_ambient_c", "C", 0, 50, True,
+     "a block this much above ambient warns of thermal runaway [°C]", "common practice"),
+    ("readings", "ohmic_rise", "F", 0, 5, True,
+     "flag an ohmic value this fraction above its baseline (0.2 = 20 %%)", "common practice"),
+    ("readings", "ohmic_above_mean", "F", 0, 5, True,
+     "with no baseline, flag an ohmic value this fraction above the bank mean", "common practice"),
+    ("readings", "connection_above_mean", "F", 0, 5, True,
+     "flag a connection resistance this fraction above the average", "common practice"),
+)
+
+
+def _threshold_type(low: float, high: float, low_open: bool, fraction: bool) -> Callable[[str], float]:
+    def parse(text: str) -> float:
+        try:
+            v = float(text)
+        except ValueError:
+            v = float("nan")
+        if not (v == v and (v > low if low_open else v >= low) and v <= high):
+            span = f"above {low:g} and at most {high:g}" if low_open else f"from {low:g} to {high:g}"
+            hint = " (a fraction: 0.2 means 20 %)" if fraction else ""
+            raise argparse.ArgumentTypeError(f"found {text!r}; expected a number {span}{hint}")
+        return v
+    return parse
+
+
+def _add_thresholds(p: argparse.ArgumentParser) -> None:
+    """The check's thresholds, one option per criterion; each report records the values used."""
+    from benchbook.model.fieldtests import CapacityCriteria
+    from benchbook.model.readings import ReadingsCriteria
+
+    defaults = {"capacity": CapacityCriteria(), "readings": ReadingsCriteria()}
+    for kind, title in (("capacity", "capacity-test thresholds"), ("readings", "readings thresholds")):
+        g = p.add_argument_group(f"{title} (override the defaults; the output records the values used)")
+        for k, field_, metavar, low, high, low_open, what, source in _THRESHOLDS:
+            if k == kind:
+                g.add_argument("--" + field_.replace("_", "-"), dest=field_, metavar=metavar,
+                               type=_threshold_type(low, high, low_open, metavar == "F"),
+                               help=f"{what} (default {getattr(defaults[kind], field_):g}; {source})")
+
+
+def _criteria(args: argparse.Namespace) -> dict:
+    """``capacity_criteria`` / ``readings_criteria`` for the library, from the threshold options given."""
+    from dataclasses import replace
+
+    from benchbook.model.fieldtests import CapacityCriteria
+    from benchbook.model.readings import ReadingsCriteria
+
+    out = {}
+    for kind, key, cls in (("capacity", "capacity_criteria", CapacityCriteria),
+                           ("readings", "readings_criteria", ReadingsCriteria)):
+        given = {t[1]: getattr(args, t[1]) for t in _THRESHOLDS if t[0] == kind and getattr(args, t[1]) is not None}
+        if given:
+            out[key] = replace(cls(), **given)
+    return out
+
+
 def _cmd_check(args: argparse.Namespace) -> int:
     from benchbook.sheets.checked import check_path
     from benchbook.sheets.fieldjobs import check_text
 
-    rep = check_path(args.path, out=args.output, baseline=args.baseline, force=args.force, workers=args.workers)
+    rep = check_path(args.path, out=args.output, baseline=args.baseline, force=args.force, workers=args.workers,
+                     **_criteria(args))
     print(rep.to_json() if args.json else check_text(rep))
     return rep.exit_code
 
@@ -232,6 +323,18 @@ def _cmd_template_check(args: argparse.Namespace) -> int:
     return 0
 
 
+def _collecting(notes: list):
+    from benchbook.sheets.safeio import collecting_notes
+
+    return collecting_notes(notes)
+
+
+def _warn(notes: list) -> None:
+    """Print the readers' notes on stderr (stdout stays the command's output, e.g. valid JSON)."""
+    for note in notes:
+        print(f"{'Warning' if note.severity == 'warning' else 'Note'}: {note}", file=sys.stderr)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -239,11 +342,20 @@ def main(argv: Sequence[str] | None = None) -> int:
     if handler is None:
         parser.print_help()
         return 2
+    notes: list = []  # what the readers noticed (macros, links, hidden sheets): warnings after the output
+    if os.environ.get("BENCHBOOK_DEBUG") != "1":
+        # python-calamine is Rust: a panic on a hostile cell becomes a FileFormatError, but Rust's hook would
+        # still print a stack backtrace on stderr when the machine sets RUST_BACKTRACE
+        os.environ["RUST_BACKTRACE"] = "0"
     try:
         _apply_limits(args)
-        return handler(args)
+        with _collecting(notes):
+            code = handler(args)
+        _warn(notes)
+        return code
     except BenchbookError as exc:
         print(f"Error: {exc}", file=sys.stderr)
+        _warn(notes)
         return exc.exit_code
     except BrokenPipeError:  # output piped into head & co.: not an error
         try:

@@ -424,7 +424,7 @@ def analyse_capacity_test(test: CapacityTest, *, baseline_percent: Optional[floa
     pct = ta if test.method == "time-adjusted" else ra
     uncorrected = test.end_minute / test.rated_minutes * 100.0
     if not ieee485_factor_checked(test.start_temp_c).in_table:
-        out.append(Finding("", "warning", f"The starting temperature {test.start_temp_c:g} °C lies outside IEEE 485 "
+        out.append(Finding("", "warning", f"The starting temperature {test.start_temp_c:.1f} °C lies outside IEEE 485 "
                            f"Table 1; the end row's factor {k:.3f} was used.", "temperature-outside-table",
                            "bank", "start_temp_c"))
 
@@ -505,7 +505,7 @@ def analyse_capacity_test(test: CapacityTest, *, baseline_percent: Optional[floa
         want = rate_adjusted_current_a(test.rated_current_a, test.start_temp_c)
         if abs(test.test_current_a / want - 1.0) > cr.current_tolerance:
             out.append(Finding("", "warning",
-                               f"For the rate-adjusted method at {test.start_temp_c:g} °C the test current should be "
+                               f"For the rate-adjusted method at {test.start_temp_c:.1f} °C the test current should be "
                                f"{want:.1f} A (rated {test.rated_current_a:g} A ÷ {k:.3f}); the sheet says "
                                f"{test.test_current_a:g} A.", "rate-adjusted-current", "bank", "test_current_a"))
     if test.method == "time-adjusted" and test.rated_minutes < 60:
@@ -519,7 +519,7 @@ def analyse_capacity_test(test: CapacityTest, *, baseline_percent: Optional[floa
     out.append(Finding("", "info",
                        f"Capacity {bound}{pct:.1f} % at 25 °C by the {test.method} method (IEEE 450): "
                        f"{test.end_minute:g} of {test.rated_minutes:g} rated minutes"
-                       + (f", temperature factor {k:.3f} at {test.start_temp_c:g} °C (IEEE 485 Table 1)."
+                       + (f", temperature factor {k:.3f} at {test.start_temp_c:.1f} °C (IEEE 485 Table 1)."
                           if test.method == "time-adjusted" else ", current set for temperature."),
                        "capacity-result", "bank", "end_minute"))
     if pct < cr.replace_below_percent:

@@ -59,6 +59,73 @@ def strings_of(block_ids: Sequence[str]) -> dict[int, list[int]]:
     return out
 
 
+def printed_order(labelled: Sequence[tuple[int, int]]) -> list[tuple[int, int]]:
+    """The rows of a pre-printed block table whose labels still stand where they were printed.
+
+    A field sheet prints one row per block, in the order of :func:`block_ids_for`;
+    crews may insert or delete rows, which shifts the rows but keeps that order.
+    ``labelled`` holds ``(row, k)`` in row order: a row and the position ``k``
+    of its label in the printed order (repeats of a label are left out: only
+    its first row counts). The rows kept are the longest run that keeps the
+    printed order (longest strictly increasing subsequence, patience method;
+    Knuth, TAOCP vol. 3, 5.1.4 [text]), less any row whose offset ``row - k``
+    differs from both neighbours' when those agree (a single relabelled row; common
+    practice, no source).
+
+    Returns
+    -------
+    list of (row, k)
+        The anchors, in row order.
+    """
+    import bisect  # noqa: PLC0415
+
+    seen: set[int] = set()
+    items = [(r, k) for r, k in labelled if not (k in seen or seen.add(k))]
+    tails: list[int] = []
+    tails_i: list[int] = []
+    prev: list[Optional[int]] = [None] * len(items)
+    for i, (_, k) in enumerate(items):
+        pos = bisect.bisect_left(tails, k)
+        if pos == len(tails):
+            tails.append(k)
+            tails_i.append(i)
+        else:
+            tails[pos], tails_i[pos] = k, i
+        prev[i] = tails_i[pos - 1] if pos else None
+    chain: list[tuple[int, int]] = []
+    i = tails_i[-1] if tails_i else None
+    while i is not None:
+        chain.append(items[i])
+        i = prev[i]
+    chain.reverse()
+    off = [r - k for r, k in chain]
+    return [a for j, a in enumerate(chain)
+            if not (0 < j < len(chain) - 1 and off[j - 1] == off[j + 1] != off[j])]
+
+
+def printed_position(anchors: Sequence[tuple[int, int]], *, row: Optional[int] = None,
+                     k: Optional[int] = None) -> Optional[int]:
+    """From the anchors of :func:`printed_order`: the printed position ``k`` of ``row``, or the row of ``k``.
+
+    Counted from the nearest anchor on each side; ``None`` when the two sides
+    disagree (rows were inserted or deleted between them) or there is no anchor.
+    """
+    if (row is None) == (k is None):
+        raise ModelError("printed_position needs exactly one of row and k")
+    i_key = 0 if row is not None else 1
+    x = row if row is not None else k
+    before = [a for a in anchors if a[i_key] < x]
+    after = [a for a in anchors if a[i_key] > x]
+    guesses = set()
+    if before:
+        r0, k0 = before[-1]
+        guesses.add(k0 + (x - r0) if row is not None else r0 + (x - k0))
+    if after:
+        r1, k1 = after[0]
+        guesses.add(k1 - (r1 - x) if row is not None else r1 - (k1 - x))
+    return guesses.pop() if len(guesses) == 1 else None
+
+
 def sg_reference_temp_c(convention: str = "ieee") -> float:
     """Reference temperature of a specific-gravity convention. [°C]"""
     if convention not in SG_CONVENTIONS:

@@ -138,7 +138,18 @@ def _fit(rows: tuple[tuple[float, float], ...]):
     return fit_kibam(rows)
 
 
-def _comparison(rec: CapacityTestRecord) -> tuple[Optional[ModelComparison], list[Finding]]:
+def _string_log(t) -> Optional[tuple]:
+    """The logged (elapsed minutes, current per string) of a test, when every logged current is a number."""
+    import numpy as np  # noqa: PLC0415
+
+    el, cur = np.asarray(t.elapsed_min, dtype=float), np.asarray(t.current_a, dtype=float)
+    if el.size < 2 or not (np.all(np.isfinite(el)) and np.all(np.isfinite(cur))):
+        return None
+    return el, cur / t.parallel
+
+
+def _comparison(rec: CapacityTestRecord, replace_at: float = 0.80
+                ) -> tuple[Optional[ModelComparison], list[Finding]]:
     """The test beside the bank's KiBaM fit (needs three ratings of 1 h or longer on the sheet)."""
     rows = [r for r in rec.ratings if r[0] >= 1.0]
     if len(rows) < 3:
@@ -152,14 +163,14 @@ def _comparison(rec: CapacityTestRecord) -> tuple[Optional[ModelComparison], lis
         cmp = compare_with_model(kb, current_per_string_a=t.test_current_a / t.parallel, temp_c=t.start_temp_c,
                                  measured_minutes=max(t.end_minute, 1e-6), rated_minutes=t.rated_minutes,
                                  design_life_25c_years=rec.design_life_years, avg_temp_c=rec.avg_temp_c,
-                                 age_years=rec.age_years)
+                                 age_years=rec.age_years, log=_string_log(t), replace_at=replace_at)
     except BenchbookError as exc:
         return None, [Finding(rec.cells.at("end_minute"), "info", f"No model comparison: {exc}", "no-model")]
     msg = (f"Model (KiBaM fitted to the rating, derated by the IEEE 485 factor {cmp.factor:.3f}): "
            f"{cmp.predicted_minutes:.0f} min predicted at {cmp.current_per_string_a:.1f} A per string, "
            f"{cmp.measured_minutes:g} min measured; health {cmp.health:.0%}; effective capacity today "
            f"{cmp.effective_capacity_ah:.0f} Ah per string at the rated time (rated {cmp.rated_capacity_ah:.0f} Ah); "
-           f"about {cmp.remaining_life_years:.1f} years to 80 % ({cmp.life_rule}).")
+           f"about {cmp.remaining_life_years:.1f} years to {100 * replace_at:g} % ({cmp.life_rule}). Refit: {cmp.refit_rule}.")
     return cmp, [Finding(rec.cells.at("end_minute"), "info", msg, "model-comparison")]
 
 
@@ -179,7 +190,7 @@ def _check_record(rec: FieldRecord, baseline: Optional[FieldRecord], capacity_cr
             base_src = baseline.source
         res: CapacityTestResult = analyse_capacity_test(rec.test, baseline_percent=base_pct,
                                                         criteria=capacity_criteria)
-        cmp, more = _comparison(rec)
+        cmp, more = _comparison(rec, capacity_criteria.replace_below_percent / 100.0)
         found += _place(res.findings, rec) + more
         extra.update({"method": res.method, "temperature_c": res.temp_c, "temperature_factor": _r(res.factor, 4),
                       "time_adjusted_percent": _r(res.time_adjusted_percent),
@@ -243,6 +254,8 @@ def check_file(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,
     Returns
     -------
     CheckReport
+        Its findings include what the workbook itself holds (macros, external
+        and DDE links, hidden sheets; :func:`workbook_findings`).
 
     Raises
     ------
@@ -256,6 +269,7 @@ def check_file(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,
         raise FileFormatError(f"{out}: is the input file; give another name for the checked copy")
     res = read_with_notes(src)
     findings = [Finding(e.where, "error", e.detail, "bad-entry") for e in res.errors] + list(res.notes)
+    findings += workbook_findings(src, res.kind)
     rep = CheckReport(src.name, res.kind, "pass", [], bank=res.bank,
                       date=res.date.isoformat() if res.date else None)
     rec = res.record
@@ -270,6 +284,7 @@ def check_file(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,
         base = None
         if baseline is not None:
             b = read_with_notes(baseline)
+            findings += workbook_findings(Path(baseline), b.kind)
             if b.record is None:
                 findings.append(Finding(Path(baseline).name, "warning", f"The baseline {Path(baseline).name} has "
                                         f"{len(b.errors)} bad entr(ies) and was not used.", "baseline-unreadable"))
@@ -294,6 +309,24 @@ def check_file(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,
     return rep
 
 
+def workbook_findings(path: Path, kind: str) -> list[Finding]:
+    """What the workbook itself holds, as findings: macros, external and DDE links (warnings), hidden sheets.
+
+    From :func:`benchbook.sheets.safeio.reader_notes` (nothing is run or
+    followed). A hidden sheet is a warning when it holds a defined name or
+    table of the ``kind`` contract (benchbook read it), an info otherwise
+    (benchbook ignored it). Each finding's cell is the file name; its message
+    names the part (``xl/vbaProject.bin``, ``xl/externalLinks/externalLink1.xml``)
+    or the sheet.
+    """
+    from benchbook.sheets import names as N  # noqa: PLC0415
+    from benchbook.sheets.safeio import reader_notes  # noqa: PLC0415
+
+    c = N.contract(kind)
+    notes = reader_notes(path, names=[s.name for s in c.names], tables=[t.name for t in c.tables])
+    return [Finding(n.where, n.severity, n.message, n.code) for n in notes]
+
+
 def _sheet_of(errors) -> str:
     """The first error's ``Sheet!A1`` (where the partial-check note sits)."""
     return errors[0].where if errors else ""
@@ -301,8 +334,13 @@ def _sheet_of(errors) -> str:
 
 def check_path(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,
                baseline: Optional[str | os.PathLike] = None, force: bool = False, *,
-               workers: Optional[int] = None, progress: Optional[bool] = None):
+               workers: Optional[int] = None, progress: Optional[bool] = None,
+               capacity_criteria: Optional[CapacityCriteria] = None,
+               readings_criteria: Optional[ReadingsCriteria] = None):
     """``benchbook check``: one file (:func:`check_file`) or a folder (:func:`benchbook.sheets.fleet.check_folder`).
+
+    ``capacity_criteria`` and ``readings_criteria`` set the thresholds of the
+    checks (the defaults when None), for a file and for every file of a folder.
 
     Returns a :class:`CheckReport` or a :class:`~benchbook.sheets.fleet.FleetReport`;
     both have ``status``, ``exit_code`` and ``to_json()``.
@@ -311,8 +349,11 @@ def check_path(path: str | os.PathLike, out: Optional[str | os.PathLike] = None,
     if p.is_dir():
         from benchbook.sheets.fleet import check_folder  # noqa: PLC0415
 
-        return check_folder(p, out=out, force=force, workers=workers, progress=progress)
-    return check_file(p, out=out, baseline=baseline, force=force)
+        return check_folder(p, out=out, force=force, workers=workers, progress=progress,
+                            capacity_criteria=capacity_criteria, readings_criteria=readings_criteria)
+    crit = {k: v for k, v in (("capacity_criteria", capacity_criteria), ("readings_criteria", readings_criteria))
+            if v is not None}
+    return check_file(p, out=out, baseline=baseline, force=force, **crit)
 
 
 # ---- the checked copy ----------------------------------------------------------------------------

@@ -34,8 +34,13 @@ def bank_from_quote(quote_path: str | Path, *, catalog: Optional[str | Path] = N
     with Book(quote_path) as book:
         for key in ("quote_site", "quote_client", "quote_battery_model", "quote_bank_series", "quote_bank_parallel"):
             t = resolve_name(book._wb, key)
-            if t.problem:
+            if t.problem == "missing":
                 problems.add(name, "", key, "a quote made by benchbook quote (defined name missing)", key)
+                continue
+            if t.problem:  # the name exists but points nowhere usable: say where and why
+                at = t.at
+                problems.add(at.sheet if at else name, at.cell if at else "", t.text,
+                             f"defined name {key} on one cell of this workbook ({t.reason})", key)
                 continue
             values[key] = (t.cell, book.value(t.cell))
     problems.raise_if_any()

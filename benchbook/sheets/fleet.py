@@ -81,15 +81,25 @@ class FleetReport:
         return json.dumps(self.to_dict(), indent=2, ensure_ascii=False, default=str)
 
 
-def _check_one(path: str, out: Optional[str], force: bool) -> SheetSummary:
-    """Worker: check one file and reduce the report; never raises."""
+def _unprefixed(message: str, name: str) -> str:
+    """``message`` without a leading ``"name: "``: the file name is the finding's cell already."""
+    return message[len(name) + 2:] if message.startswith(f"{name}: ") else message
+
+
+def _check_one(path: str, out: Optional[str], force: bool, criteria: Optional[dict[str, Any]] = None
+               ) -> SheetSummary:
+    """Worker: check one file and reduce the report; never raises.
+
+    ``criteria`` holds ``capacity_criteria`` and/or ``readings_criteria`` for
+    :func:`benchbook.sheets.checked.check_file` (defaults when absent).
+    """
     from benchbook.sheets.checked import check_file  # noqa: PLC0415
 
     name = Path(path).name
     try:
-        rep = check_file(path, out=out, force=force)
+        rep = check_file(path, out=out, force=force, **(criteria or {}))
     except BenchbookError as exc:
-        msg = str(exc).replace("\n", " ")
+        msg = _unprefixed(" ".join(str(exc).split()), name)
         return SheetSummary(name, "unreadable", "fail", 2, worst={"cell": name, "severity": "error", "message": msg,
                                                                   "code": "unreadable"},
                             counts={"error": 1}, report={"file": name, "kind": "unreadable", "status": "fail",
@@ -138,7 +148,8 @@ def sheets_in(folder: Path, outdir: Path) -> list[Path]:
 
 
 def check_folder(folder: str | os.PathLike, out: Optional[str | os.PathLike] = None, force: bool = False, *,
-                 workers: Optional[int] = None, progress: Optional[bool] = None) -> FleetReport:
+                 workers: Optional[int] = None, progress: Optional[bool] = None,
+                 capacity_criteria: Any = None, readings_criteria: Any = None) -> FleetReport:
     """Check every field sheet of ``folder`` in parallel; write checked copies and a fleet summary.
 
     Parameters
@@ -154,6 +165,13 @@ def check_folder(folder: str | os.PathLike, out: Optional[str | os.PathLike] = N
         Processes; default the number of CPUs (at most the number of files).
     progress : bool, optional
         Draw a progress bar on stderr; default only when stderr is a terminal.
+    capacity_criteria : CapacityCriteria, optional
+        Thresholds for every capacity test of the folder
+        (:class:`benchbook.model.fieldtests.CapacityCriteria`; default its defaults).
+    readings_criteria : ReadingsCriteria, optional
+        Thresholds for every readings sheet
+        (:class:`benchbook.model.readings.ReadingsCriteria`; default its defaults).
+        Each report records the values used.
 
     Returns
     -------
@@ -173,17 +191,19 @@ def check_folder(folder: str | os.PathLike, out: Optional[str | os.PathLike] = N
         raise FileFormatError(f"{clash[0]}: already exists ({len(clash)} output file(s) do); "
                               "use --force to overwrite them")
     outdir.mkdir(parents=True, exist_ok=True)
+    criteria = {k: v for k, v in (("capacity_criteria", capacity_criteria),
+                                  ("readings_criteria", readings_criteria)) if v is not None}
     bar = _Progress(len(files), sys.stderr.isatty() if progress is None else progress)
     results: dict[Path, SheetSummary] = {}
     n = max(1, min(workers or os.cpu_count() or 1, len(files)))
     try:
         if n == 1:
             for p in files:
-                results[p] = _check_one(str(p), str(targets[p]), force)
+                results[p] = _check_one(str(p), str(targets[p]), force, criteria)
                 bar.step(p.name)
         else:
             with ProcessPoolExecutor(max_workers=n) as pool:
-                futs = {pool.submit(_check_one, str(p), str(targets[p]), force): p for p in files}
+                futs = {pool.submit(_check_one, str(p), str(targets[p]), force, criteria): p for p in files}
                 for fut in as_completed(futs):
                     p = futs[fut]
                     results[p] = fut.result()
@@ -191,12 +211,13 @@ def check_folder(folder: str | os.PathLike, out: Optional[str | os.PathLike] = N
     finally:
         bar.close()
     sheets = [results[p] for p in files]
-    _add_trends(files, sheets, targets)
+    _add_trends(files, sheets, targets, criteria)
     write_fleet_summary(summary_path, sheets, force=True)
     return FleetReport(str(src), sheets, str(summary_path))
 
 
-def _add_trends(files: list[Path], sheets: list[SheetSummary], targets: dict[Path, Path]) -> None:
+def _add_trends(files: list[Path], sheets: list[SheetSummary], targets: dict[Path, Path],
+                criteria: Optional[dict[str, Any]] = None) -> None:
     """Re-check the latest sheet of each bank with two or more dated sheets, with a Trend sheet in its copy."""
     from benchbook.sheets.checked import check_file  # noqa: PLC0415
 
@@ -211,7 +232,7 @@ def _add_trends(files: list[Path], sheets: list[SheetSummary], targets: dict[Pat
         last = idx[-1]
         earlier = [sheets[i].trend for i in idx[:-1]]
         try:
-            check_file(files[last], out=targets[files[last]], force=True, trend=earlier)
+            check_file(files[last], out=targets[files[last]], force=True, trend=earlier, **(criteria or {}))
         except BenchbookError:
             continue
 

@@ -22,7 +22,14 @@ What a crew types is judged cell by cell (see :func:`parse_number`):
 * SG typed as points (``1265``) is read as 1.265; a block voltage that is a
   string total, or a per-cell value on a multi-cell block, is rejected; a
   temperature column that is plainly °F (median above 45 °C) is converted, with
-  a warning;
+  a warning; a single reading that is plainly °F among °C ones (15 °C or more
+  above the column's median as °C, within 5 °C of it as °F, fewer than half
+  of at least four readings) is an error at its cell, since it could also be a
+  block running hot: typed with its unit (``77 °C``) it is kept as °C;
+* a table header that is not the contract's is an error at its cell with the
+  closest contract header (difflib) when it looks like an edit of one, else an
+  ignored-column note; a missing required column is an error at the first
+  empty cell after the header row's last header;
 * elapsed time that does not increase, duplicate or unknown block ids are
   errors; missing blocks and blank rows are findings;
 * a formula in an input cell is never evaluated: its cached value is used and

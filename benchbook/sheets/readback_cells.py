@@ -199,9 +199,18 @@ def _names(rd: _Reader, contract: N.Contract) -> tuple[dict[str, Any], dict[str,
     for spec in contract.names:
         nc = book.names.get(spec.name.casefold())
         if nc is None or nc.problem:
-            if spec.required:
-                missing.append(f"defined name {spec.name} ({spec.caption}) "
-                               + ("is missing" if nc is None else f"points to {nc.problem}"))
+            # Only a missing optional name means "blank" (its default, docs/template-contract.md); a name that
+            # points at a range, #REF! or another workbook is an error even for an optional field.
+            if nc is not None and not spec.required:
+                from benchbook.sheets.tables import Found  # noqa: PLC0415
+
+                rd.error(book.path.name, "", Found(f"defined name {spec.name} pointing to {nc.problem}"),
+                         "the name pointing to one cell of this workbook (the field is optional: delete the name "
+                         "to leave it blank)", spec.label)
+            elif spec.required:
+                missing.append(f"defined name {spec.name} ({spec.caption}) " + (
+                    "is missing; expected a name for its one input cell" if nc is None
+                    else f"points to {nc.problem}; expected one cell of this workbook"))
             vals[spec.field] = spec.default
             continue
         grid = book.grid(nc.sheet)

@@ -41,6 +41,19 @@ _T = "urn:oasis:names:tc:opendocument:xmlns:table:1.0"
 _TBL = "{" + _T + "}"
 
 
+def _first_line(exc: BaseException) -> str:
+    """The first line of an exception's text, at most 200 characters (a Rust panic's text runs on).
+
+    A calendar overflow gets a hint: a date- or time-formatted cell holds a
+    number no calendar reaches (a reading typed into a date cell).
+    """
+    text = str(exc)
+    line = text.splitlines()[0][:200] if text else ""
+    if "TimeDelta" in line or "out of range" in line.lower() or "out of bounds" in line.lower():
+        line += "; a date or time cell holds a number outside the calendar"
+    return line
+
+
 @dataclass(frozen=True)
 class NamedCell:
     """Where a defined name points: one cell (``row``, ``col`` 1-based) or a ``problem`` in words."""
@@ -86,10 +99,50 @@ class RawBook:
         if sheet not in self._grids:
             try:
                 self._grids[sheet] = self._sheet(sheet).to_python(skip_empty_area=False)
-            except Exception as exc:  # calamine raises its own kinds on broken parts
-                raise FileFormatError(f"{self.path.name}: sheet {sheet} could not be read ({type(exc).__name__}: "
-                                      f"{exc}); open the file and save it again as .xlsx") from None
+            except (KeyboardInterrupt, SystemExit, MemoryError):
+                raise
+            except BaseException as exc:  # calamine errors, and pyo3's PanicException (a BaseException), e.g.
+                # a date-formatted cell holding a number no calendar reaches
+                grid = self._grid_without_calendar_overflow(sheet) if self.kind != "ods" else None
+                if grid is None:
+                    raise FileFormatError(f"{self.path.name}: sheet {sheet} could not be read ({type(exc).__name__}: "
+                                          f"{_first_line(exc)}); open the file and save it again as .xlsx") from None
+                self._grids[sheet] = grid
         return self._grids[sheet]
+
+    def _grid_without_calendar_overflow(self, sheet: str) -> Optional[list[list[Any]]]:
+        """The sheet read again with each number no calendar reaches turned into its text.
+
+        python-calamine converts a date- or time-formatted number to a date in
+        Rust, which panics for a number far below day 1 (chrono's TimeDelta
+        bounds, about −1.07e11 days). Such a number is a reading typed into a
+        date cell: read from a copy where it is text, it comes back as that text
+        and is judged at its own cell like any other bad entry. None when no
+        such number is found (the failure was something else).
+        """
+        import io  # noqa: PLC0415
+
+        import python_calamine  # noqa: PLC0415
+
+        try:
+            with zipfile.ZipFile(self.path) as zf:
+                part = _sheet_parts(zf).get(sheet)
+                if part is None:
+                    return None
+                xml, hits = _CALENDAR_OVERFLOW.subn(_as_inline_text, zf.read(part))
+                if not hits:
+                    return None
+                buf = io.BytesIO()
+                with zipfile.ZipFile(buf, "w", zipfile.ZIP_DEFLATED) as out:
+                    for info in zf.infolist():
+                        out.writestr(info.filename, xml if info.filename == part else zf.read(info))
+            buf.seek(0)
+            return python_calamine.CalamineWorkbook.from_filelike(buf).get_sheet_by_name(sheet).to_python(
+                skip_empty_area=False)
+        except (KeyboardInterrupt, SystemExit, MemoryError):
+            raise
+        except BaseException:  # noqa: BLE001 - the caller reports the original failure
+            return None
 
     def _sheet(self, sheet: str):
         """python-calamine's sheet object, parsed once (each get_sheet_by_name parses the sheet again)."""
@@ -161,15 +214,17 @@ def open_raw(path: str | Path) -> RawBook:
         pool.shutdown(wait=True, cancel_futures=True)
         raise
     try:
-        if kind == "ods":
-            cwb = python_calamine.CalamineWorkbook.from_path(str(p))
-        else:
-            cwb = python_calamine.CalamineWorkbook.from_path(str(p))
-    except Exception as exc:  # calamine raises its own kinds on broken parts
+        cwb = python_calamine.CalamineWorkbook.from_path(str(p))
+    except (KeyboardInterrupt, SystemExit, MemoryError):
         cancel.set()
         pool.shutdown(wait=True, cancel_futures=True)
-        raise FileFormatError(f"{p.name}: could not be read as a workbook ({type(exc).__name__}: {exc}); "
-                              "open it in a spreadsheet application and save it again as .xlsx") from None
+        raise
+    except BaseException as exc:  # calamine errors, and pyo3's PanicException (a BaseException)
+        cancel.set()
+        pool.shutdown(wait=True, cancel_futures=True)
+        raise FileFormatError(f"{p.name}: could not be read as a workbook ({type(exc).__name__}: "
+                              f"{_first_line(exc)}); open it in a spreadsheet application and save it again "
+                              "as .xlsx") from None
     try:
         sheets = list(cwb.sheet_names)
         if kind == "ods":
@@ -289,6 +344,27 @@ def _sheet_parts(zf: zipfile.ZipFile) -> dict[str, str]:
     return out
 
 
+# A number cell (no t= or t="n") whose value lies below −1e11 or is not finite: no calendar holds it.
+_CALENDAR_OVERFLOW = re.compile(
+    rb'<(?P<p>(?:\w+:)?)c(?P<a>(?:\s+(?!t=)[\w:]+="[^"]*")*)(?:\s+t="n")?(?P<b>(?:\s+(?!t=)[\w:]+="[^"]*")*)\s*>'
+    rb'\s*<(?P=p)v>\s*(?P<v>-\d{12,}(?:\.\d*)?(?:[eE][+-]?\d+)?|-?\d+(?:\.\d*)?[eE]\+?\d{2,}|-?(?:NaN|INF))\s*'
+    rb'</(?P=p)v>\s*</(?P=p)c>')
+
+
+def _as_inline_text(m: re.Match) -> bytes:
+    """The matched number cell as an inline-string cell holding the same text (when it is out of the calendar)."""
+    text = m.group("v")
+    try:
+        value = float(text)
+    except ValueError:
+        value = float("nan")
+    if value == value and -1e11 <= value < 1e300:
+        return m.group(0)  # a large positive or an ordinary number: calamine reads it
+    p = m.group("p")
+    return b"<" + p + b"c" + m.group("a") + m.group("b") + b' t="inlineStr"><' + p + b"is><" + p + b"t>" + text \
+        + b"</" + p + b"t></" + p + b"is></" + p + b"c>"
+
+
 _F = re.compile(rb"<(?:\w+:)?f[ >/]")
 _C_OPEN = re.compile(rb"<(?:\w+:)?c\s[^>]*>")
 _R_ATTR = re.compile(rb'\br="([A-Z]{1,3})([0-9]+)"')
@@ -339,16 +415,19 @@ def _scan_all_sheets(path: Path, cancel: threading.Event) -> Optional[dict[str, 
                     if d is not None and d.unconsumed_tail:
                         return None  # inflates more than 16 MiB per MiB: leave it to the gate
                     total += len(chunk)
-                    buf = tail + chunk
-                    if buf.find(b"<f") >= 0 or buf.find(b":f") >= 0:
-                        for m_ in _F.finditer(buf):
-                            last = None
-                            for last in _C_OPEN.finditer(buf, max(0, m_.start() - 600), m_.start()):
-                                pass
-                            hit = _R_ATTR.search(last.group(0)) if last else None
-                            if hit:
-                                found.add((int(hit.group(2)), column_index_from_string(hit.group(1).decode())))
-                    tail = buf[-600:]
+                    # a chunk without the letter f holds no <f> element (memchr-fast; a log of numbers has none),
+                    # unless the previous chunk ended on the f of "<f" and this one starts with its " ", ">" or "/"
+                    if b"f" in chunk or b"f" in tail[-1:]:
+                        buf = tail + chunk
+                        if buf.find(b"<f") >= 0 or buf.find(b":f") >= 0:
+                            for m_ in _F.finditer(buf):
+                                last = None
+                                for last in _C_OPEN.finditer(buf, max(0, m_.start() - 600), m_.start()):
+                                    pass
+                                hit = _R_ATTR.search(last.group(0)) if last else None
+                                if hit:
+                                    found.add((int(hit.group(2)), column_index_from_string(hit.group(1).decode())))
+                    tail = chunk[-600:] if len(chunk) >= 600 else (tail + chunk)[-600:]
         return out
     except Exception:  # noqa: BLE001 - the gate judges the file; this scan only helps
         return None

@@ -6,7 +6,7 @@ Used by :func:`benchbook.sheets.readback.read_with_notes`; the cell rules are in
 
 from __future__ import annotations
 
-import itertools
+import difflib
 import math
 import re
 from dataclasses import replace
@@ -16,14 +16,14 @@ import numpy as np
 
 from benchbook.errors import ModelError, SpecError, TemplateError
 from benchbook.model.fieldtests import CapacityTest
-from benchbook.model.readings import BlockReading, parse_block_id
+from benchbook.model.readings import BlockReading, parse_block_id, printed_order, printed_position
 from benchbook.sheets import names as N
 from benchbook.sheets.readback import BankIdentity, CapacityTestRecord, CellMap, ReadingsRecord
 from benchbook.sheets.readback_cells import (NAN, _blank, _block_accept, _columns,
                                              _fahrenheit_column, _locate_table, _merged_in, _names, _numeric_column,
                                              _range_text, _Reader, _table_formulas, parse_number)
 from benchbook.sheets.readback_scan import RawBook
-from benchbook.sheets.tables import a1
+from benchbook.sheets.tables import Found, a1
 
 
 def _identity(vals: dict[str, Any]) -> Optional[BankIdentity]:
@@ -41,15 +41,26 @@ def _body_columns(grid: list[list[Any]], header_row: int, cols: list[int]) -> di
     A body of plain numbers only (a logger's export) becomes one float matrix at
     once, its columns float arrays; anything else is transposed into tuples of
     the raw values, to be judged cell by cell.
+
+    numpy picks the matrix's type in one pass: float or integer only when every
+    cell is a number or TRUE/FALSE (text, blanks, dates make it something
+    else). TRUE and FALSE become 1 and 0 there, so the few cells that hold 0
+    or 1 are looked at one by one; one TRUE/FALSE sends the body cell by cell.
     """
     body = grid[header_row:]
     if not body:
         return {c: () for c in cols}
     width = max(cols)
     if len(set(map(len, body))) == 1 and len(body[0]) >= width:
-        if set(map(type, itertools.chain.from_iterable(body))) <= {float}:
-            m = np.array(body, dtype=float)
-            return {c: m[:, c - 1] for c in cols}
+        try:
+            m = np.array(body)
+        except (ValueError, TypeError, OverflowError):
+            m = None
+        if m is not None and m.ndim == 2 and m.dtype.kind in "fiu":
+            zero_one = np.argwhere((m == 0) | (m == 1))
+            if not any(body[r][c].__class__ is bool for r, c in zero_one.tolist()):
+                m = m.astype(float, copy=False)
+                return {c: m[:, c - 1] for c in cols}
     else:
         body = [list(r) + [""] * (width - len(r)) for r in body]
     allcols = list(zip(*body))
@@ -79,6 +90,112 @@ def _take(values, keep: np.ndarray):
     return [values[i] for i in keep]
 
 
+# ---- header rows ----------------------------------------------------------------------------------
+_UNIT_PART = re.compile(r"\s*[\[(]([^\[\]()]*)[\])]\s*$")
+
+
+def _name_and_unit(header: str) -> tuple[str, str]:
+    """``"Temperature [°C]"`` → ``("temperature", "°c")``, both normalized; brackets or parentheses."""
+    m = _UNIT_PART.search(header)
+    return (N.normalize_header(header[:m.start()]), N.normalize_header(m.group(1))) if m else \
+        (N.normalize_header(header), "")
+
+
+def closest_header(text: str, candidates: list[str]) -> Optional[str]:
+    """The header of ``candidates`` that ``text`` most likely is, edited; ``None`` when none is close.
+
+    difflib's ratio (:class:`difflib.SequenceMatcher`) of the normalized
+    headers, or of their names without the unit when that is higher; a name
+    that begins the other's (``temp`` / ``temperature``, three letters or more)
+    counts as 0.75; the same unit adds 0.1. The best score of 0.6 or more
+    wins (0.6 is difflib's own default cut-off; common practice, no source).
+    """
+    full = N.normalize_header(text)
+    name, unit = _name_and_unit(text)
+    best, score = None, 0.0
+    for cand in candidates:
+        cname, cunit = _name_and_unit(cand)
+        s = max(difflib.SequenceMatcher(None, full, N.normalize_header(cand)).ratio(),
+                difflib.SequenceMatcher(None, name, cname).ratio())
+        if min(len(name), len(cname)) >= 3 and (cname.startswith(name) or name.startswith(cname)):
+            s = max(s, 0.75)
+        if unit and unit == cunit:
+            s += 0.1
+        if s > score:
+            best, score = cand, s
+    return best if score >= 0.6 else None
+
+
+def _edited_headers(rd: _Reader, sheet: str, hrow: int, unknown: list[tuple[int, str]], candidates: list[str],
+                    table: str, kind: str) -> dict[str, str]:
+    """Judge the headers that are not the contract's: an edited one is an error, any other column a note.
+
+    Returns ``{candidate header: cell}`` of the headers that were suggested.
+    """
+    suggested: dict[str, str] = {}
+    for col, text in unknown:
+        cell = a1(col, hrow)
+        hit = closest_header(text, candidates)
+        if hit is None:
+            rd.note(sheet, cell, "info", f"Column '{text}' is not part of the {kind} and was not read.",
+                    "column-ignored")
+            continue
+        suggested.setdefault(hit, cell)
+        rd.error(sheet, cell, text, f"a header of the {table} table; did you mean \"{hit}\"? (a column whose header "
+                 f"was edited is not read: type the header as {hit})", f"{table} column header")
+    return suggested
+
+
+def _missing_column(rd: _Reader, sheet: str, grid: list[list[Any]], hrow: int, header: str, table: str) -> None:
+    """A required column is missing: an error at the first empty cell after the last header of the header row."""
+    heads = _columns(grid, hrow)
+    row = grid[hrow - 1] if hrow - 1 < len(grid) else []
+    last = max((j + 1 for j, v in enumerate(row) if not _blank(v)), default=0)
+    shown = ", ".join(t for _, t in heads[:12]) + (", …" if len(heads) > 12 else "")
+    found = Found(f"an empty cell after the last header (the header row {hrow} holds {shown})" if heads
+                  else f"an empty header row {hrow}")
+    rd.error(sheet, a1(last + 1, hrow), found, f"a column headed {header}; it is required: add it (here, or "
+             "anywhere in the header row) or restore its header text", f"{table} header row")
+
+
+# ---- a °F reading in a °C column ---------------------------------------------------------------
+#: A single reading of a °C column is read as °F when (common practice, no source) the column has at least
+#: F_MIN_READINGS readings, the reading is F_RISE_C or more above their median as °C, and as °F
+#: ((v - 32) × 5/9) it is within F_MATCH_C of that median and in the column's range; fewer than half of the
+#: readings may look so (a column that is mostly °F is the whole-column rule's, median above 45 °C).
+F_MIN_READINGS, F_RISE_C, F_MATCH_C = 4, 15.0, 5.0
+
+
+def _fahrenheit_readings(rd: _Reader, sheet: str, arr: np.ndarray, raws, rows, col: int, what,
+                         lo: float, hi: float) -> np.ndarray:
+    """Single readings of a °C column that are plainly °F: each an error at its cell, and left out (NaN).
+
+    ``raws[i]`` is what the crew typed in sheet row ``rows[i]``; a reading typed
+    with its unit (``"77 °C"``) is the crew's confirmation and is kept as °C.
+    """
+    fin = np.isfinite(arr)
+    n = int(fin.sum())
+    if n < F_MIN_READINGS:
+        return arr
+    med = float(np.median(arr[fin]))
+    as_c = (arr - 32.0) * 5.0 / 9.0
+    with np.errstate(invalid="ignore"):
+        hit = fin & (arr - med >= F_RISE_C) & (np.abs(as_c - med) <= F_MATCH_C) & (as_c >= lo) & (as_c <= hi)
+    if not hit.any() or 2 * int(hit.sum()) >= n:
+        return arr
+    out = arr.copy()
+    for i in np.flatnonzero(hit):
+        raw = _py(raws[i])
+        if isinstance(raw, str) and any(note.startswith("unit '") for _, note in parse_number(raw, "°C")[0]):
+            continue
+        rd.error(sheet, a1(col, int(rows[i])), raw, f"a temperature in °C; {arr[i]:g} looks like °F = {as_c[i]:.1f} °C, "
+                 f"in line with the other readings (median {med:.1f} °C): type the °C value, or type "
+                 f"\"{arr[i]:g} °C\" if it really is that hot (then treat it as a thermal-runaway warning)",
+                 what if isinstance(what, str) else what[i])
+        out[i] = NAN
+    return out
+
+
 # ---- the capacity-test sheet -------------------------------------------------------------------
 _BLOCK_HEADER = re.compile(r"^block\s*(s\d+\s*-\s*\d+)$", re.IGNORECASE)
 
@@ -96,6 +213,7 @@ def read_capacity(rd: _Reader) -> Optional[CapacityTestRecord]:
     blocks: list[tuple[str, int]] = []
     by_text = {N.normalize_header(h.header): f for f, h in fixed.items()}
     seen: dict[str, str] = {}
+    unknown: list[tuple[int, str]] = []
     for col, text in _columns(grid, hrow):
         norm = N.normalize_header(text)
         m = _BLOCK_HEADER.match(text.replace(" ", " "))
@@ -119,14 +237,15 @@ def read_capacity(rd: _Reader) -> Optional[CapacityTestRecord]:
                 seen[bid] = cell
                 blocks.append((bid, col))
         else:
-            rd.note(sheet, a1(col, hrow), "info", f"Column '{text}' is not part of the log and was not read.",
-                    "column-ignored")
-    if "elapsed_min" not in cols:
-        rd.error(sheet, a1(1, hrow), "", f"a column headed {fixed['elapsed_min'].header}", "TestLog")
+            unknown.append((col, text))
+    expected_ids = [f"S{s}-{p:0{max(2, len(str(bank.series)))}d}" for s in range(1, bank.parallel + 1)
+                    for p in range(1, bank.series + 1)] if bank else []
+    suggested = _edited_headers(rd, sheet, hrow, unknown, [h.header for f, h in fixed.items() if f not in cols]
+                                + [N.block_header(b) for b in expected_ids if b not in seen], "TestLog", "log")
+    if "elapsed_min" not in cols and fixed["elapsed_min"].header not in suggested:
+        _missing_column(rd, sheet, grid, hrow, fixed["elapsed_min"].header, "TestLog")
     if bank:
-        expected_ids = [f"S{s}-{p:0{max(2, len(str(bank.series)))}d}" for s in range(1, bank.parallel + 1)
-                        for p in range(1, bank.series + 1)]
-        missing = [b for b in expected_ids if b not in seen]
+        missing = [b for b in expected_ids if b not in seen and N.block_header(b) not in suggested]
         if missing:
             rd.note(sheet, a1(1, hrow), "warning", f"No log column for {len(missing)} block(s): "
                     f"{', '.join(missing[:12])}{' …' if len(missing) > 12 else ''}.", "block-missing")
@@ -165,6 +284,7 @@ def read_capacity(rd: _Reader) -> Optional[CapacityTestRecord]:
         # plain numbers skipped the per-cell judgement: judge their range now (text was judged already)
         if f == "pilot_temp_c":
             a = _fahrenheit_column(rd, sheet, a, a1(cols[f], hrow), h.header)
+            a = _fahrenheit_readings(rd, sheet, a, vals_f, first + keep, cols[f], h.header, lo, hi)
         bad = np.flatnonzero(np.isfinite(a) & ~((a >= lo) & (a <= hi)))
         for i in bad:
             rd.error(sheet, a1(cols[f], first + int(keep[i])), _py(vals_f[i]), _range_text(lo, hi, unit), h.header)
@@ -193,14 +313,15 @@ def read_capacity(rd: _Reader) -> Optional[CapacityTestRecord]:
                      f"elapsed minutes that increase down the log (row {first + int(keep[ref])} says {t[ref]:g})",
                      fixed["elapsed_min"].header)
     accept, expected = _block_accept(cpb, series, per_cell_check=False)
-    bv = np.full((keep.size, len(blocks)), NAN)
+    block_cols = []
     for j, (bid, col) in enumerate(blocks):
         vals_b = _take(raw_blocks[j], keep)
         a = _numeric_column(rd, sheet, vals_b, first + keep, col, f"Block {bid} voltage [V]", 0,
                             3.0 * cpb, "V", accept, expected(None))
         for i in np.flatnonzero(np.isfinite(a) & ((a < 0) | (a > 3.0 * cpb))):
             rd.error(sheet, a1(col, first + int(keep[i])), _py(vals_b[i]), expected(float(a[i])), f"Block {bid} voltage")
-        bv[:, j] = a
+        block_cols.append(a)
+    bv = np.column_stack(block_cols) if block_cols else np.empty((keep.size, 0))  # one copy, no NaN fill first
     bypassed: list[str] = []
     for part in re.split(r"[,;\s]+", str(vals.get("bypassed") or "").strip()):
         if part:
@@ -245,7 +366,7 @@ def read_capacity(rd: _Reader) -> Optional[CapacityTestRecord]:
         for p in exc.problems:
             rd.error(*(where.get(p.field) or f"{sheet}!{a1(1, hrow)}").split("!"), p.value, p.expected, p.field)
         return None
-    cells = CellMap(where, sheet, hrow, tuple(first + int(i) for i in keep),
+    cells = CellMap(where, sheet, hrow, tuple((first + keep).tolist()),
                     {**cols, **{b: col for b, col in blocks}, "block_voltage_v": min((c_ for _, c_ in blocks),
                                                                                    default=1)})
     return CapacityTestRecord(book.path.name, bank, test, vals.get("date"), vals.get("crew") or "",
@@ -281,6 +402,27 @@ def _ratings(rd: _Reader, book: RawBook) -> tuple[tuple[float, float], ...]:
 
 
 # ---- the readings sheet ------------------------------------------------------------------------
+def _printed_labels(grid: list[list[Any]], hrow: int, cols: dict[str, int], expected_ids: list[str]
+                    ) -> list[tuple[int, int]]:
+    """Rows of the BlockReadings table whose Block label stands where the field sheet printed it.
+
+    The sheet prints one row per block in ``expected_ids`` order; see
+    :func:`benchbook.model.readings.printed_order`.
+    """
+    col, index, labelled = cols["Block"], {b: k for k, b in enumerate(expected_ids)}, []
+    width = len(expected_ids[-1].split("-")[1]) if expected_ids else 2
+    for r in range(hrow + 1, len(grid) + 1):
+        v = grid[r - 1][col - 1] if col - 1 < len(grid[r - 1]) else ""
+        try:
+            s, p = parse_block_id(str(v))
+        except ModelError:
+            continue
+        k = index.get(f"S{s}-{p:0{width}d}")
+        if k is not None:
+            labelled.append((r, k))
+    return printed_order(labelled)
+
+
 def read_readings(rd: _Reader, partial: bool = False) -> Optional[ReadingsRecord]:
     """The readings record; ``None`` when an entry is bad, unless ``partial`` (then bad entries are left out).
 
@@ -298,16 +440,18 @@ def read_readings(rd: _Reader, partial: bool = False) -> Optional[ReadingsRecord
     grid = book.grid(sheet)
     heads = {N.normalize_header(h.header): h for h in spec_t.headers}
     cols: dict[str, int] = {}
+    unknown: list[tuple[int, str]] = []
     for col, text in _columns(grid, hrow):
         h = heads.get(N.normalize_header(text))
         if h is None:
-            rd.note(sheet, a1(col, hrow), "info", f"Column '{text}' is not part of the readings and was not read.",
-                    "column-ignored")
+            unknown.append((col, text))
         elif h.header not in cols:
             cols[h.header] = col
+    suggested = _edited_headers(rd, sheet, hrow, unknown, [h.header for h in spec_t.headers if h.header not in cols],
+                                "BlockReadings", "readings")
     for h in spec_t.headers:
-        if h.required and h.header not in cols:
-            rd.error(sheet, a1(1, hrow), "", f"a column headed {h.header}", "BlockReadings")
+        if h.required and h.header not in cols and h.header not in suggested:
+            _missing_column(rd, sheet, grid, hrow, h.header, "BlockReadings")
     if bank is None or any(h.required and h.header not in cols for h in spec_t.headers):
         return None
     cpb, series = bank.cells_per_block, bank.series
@@ -320,6 +464,15 @@ def read_readings(rd: _Reader, partial: bool = False) -> Optional[ReadingsRecord
     rows, seen, out_rows = [], {}, []
     ohmic_cols = [h for h in ("Internal resistance [mΩ]", "Conductance [S]") if h in cols]
     kinds_used: dict[str, int] = {}
+    expected_ids = [f"S{s}-{p:0{width}d}" for s in range(1, bank.parallel + 1) for p in range(1, series + 1)]
+    anchors, bad_rows = _printed_labels(grid, hrow, cols, expected_ids), set()
+    anchor_rows = {r for r, _ in anchors}
+
+    def printed(r: int) -> str:
+        k = printed_position(anchors, row=r)
+        return f"the label printed on this row, {expected_ids[k]}" if k is not None and 0 <= k < len(
+            expected_ids) else "the label printed on this row (the rows are printed in block order)"
+
     for r in range(hrow + 1, len(grid) + 1):
         line = grid[r - 1]
 
@@ -334,14 +487,23 @@ def read_readings(rd: _Reader, partial: bool = False) -> Optional[ReadingsRecord
             s, p = parse_block_id(str(bid_raw))
             bid = f"S{s}-{p:0{width}d}"
         except ModelError:
-            rd.error(sheet, bcell, bid_raw, "a block id such as S1-01 (one row per block)", "Block")
+            bad_rows.add(r)
+            rd.error(sheet, bcell, bid_raw, f"a block id such as S1-01 (one row per block): {printed(r)}", "Block")
             continue
         if bid in seen:
+            bad_rows.add(r)
             rd.error(sheet, bcell, bid_raw, f"each block once; {bid} is already on {seen[bid]}", "Block")
             continue
         if s > bank.parallel or p > bank.series:
+            bad_rows.add(r)
             rd.error(sheet, bcell, bid_raw, f"a block of this bank, S1..S{bank.parallel} and positions "
                      f"1..{bank.series}", "Block")
+            continue
+        kp = None if r in anchor_rows else printed_position(anchors, row=r)
+        if r not in anchor_rows and (kp is None or 0 <= kp < len(expected_ids)) and kp != expected_ids.index(bid):
+            bad_rows.add(r)
+            rd.error(sheet, bcell, bid_raw, f"{printed(r)}; a retyped label would give this row's readings to "
+                     f"{bid}: restore the label and put each block's readings on its own row (not read)", "Block")
             continue
         seen[bid] = bcell
         fv = rd.number(sheet, r, cols["Float voltage [V]"], raw("Float voltage [V]"), f"Float voltage of {bid}",
@@ -405,7 +567,10 @@ def read_readings(rd: _Reader, partial: bool = False) -> Optional[ReadingsRecord
                  "BlockReadings")
     temps = np.array([b.temp_c for b in out_rows], dtype=float)
     if "Temperature [°C]" in cols:
-        conv = _fahrenheit_column(rd, sheet, temps.copy(), a1(cols["Temperature [°C]"], hrow), "Temperature [°C]")
+        tcol = cols["Temperature [°C]"]
+        conv = _fahrenheit_column(rd, sheet, temps.copy(), a1(tcol, hrow), "Temperature [°C]")
+        conv = _fahrenheit_readings(rd, sheet, conv, [grid[r - 1][tcol - 1] if tcol <= len(grid[r - 1]) else "" for r in rows], rows, tcol,
+                                    [f"Temperature of {b.block_id}" for b in out_rows], -10, 80)
         for j, (b, t) in enumerate(zip(out_rows, conv)):
             if math.isfinite(t) and not -10 <= t <= 80:
                 rd.error(sheet, a1(cols["Temperature [°C]"], rows[j]), b.temp_c, "a temperature from −10 to 80 °C",
@@ -413,8 +578,16 @@ def read_readings(rd: _Reader, partial: bool = False) -> Optional[ReadingsRecord
                 conv[j] = NAN  # a bad entry is a reading not taken
         out_rows = [BlockReading(b.block_id, b.float_voltage_v, b.specific_gravity, float(t), b.ohmic_value,
                                  b.connection_uohm, b.electrolyte_level, b.remarks) for b, t in zip(out_rows, conv)]
-    expected_ids = [f"S{s}-{p:0{width}d}" for s in range(1, bank.parallel + 1) for p in range(1, series + 1)]
-    missing = [b for b in expected_ids if b not in seen]
+    missing = []
+    for k, b in enumerate(expected_ids):
+        r = None if b in seen else printed_position(anchors, k=k)
+        if b in seen or (r is not None and r in bad_rows):
+            continue  # read, or its row holds an error at its Block cell already
+        if r is not None and r > hrow and out_rows and all(
+                _blank(v) for v in (grid[r - 1] if r <= len(grid) else ())):
+            rd.note(sheet, a1(cols["Block"], r), "warning", f"No readings for {b}: its row is blank.", "block-missing")
+        else:
+            missing.append(b)
     if missing and out_rows:
         rd.note(sheet, a1(cols["Block"], hrow), "warning", f"No readings for {len(missing)} block(s): "
                 f"{', '.join(missing[:12])}{' …' if len(missing) > 12 else ''}.", "block-missing")

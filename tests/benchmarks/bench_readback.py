@@ -11,12 +11,16 @@ Timed, alternating, ``repeats`` times each (the fastest run of each is kept):
 
 * **benchbook**: :func:`benchbook.sheets.checked.check_file` without an output
   file: the safety gate, the read of every sheet, the cell-by-cell validation,
-  the formula scan, the IEEE 450 analysis and the KiBaM comparison;
+  the formula scan, the IEEE 450 analysis and the KiBaM comparison. The gate
+  remembers files that passed it (by content), so its memory is emptied before
+  each run: ``ratio`` is that of a first check of the file, as a crew's new
+  sheet gets; ``ratio_gate_remembered`` is that of a second check of the same
+  bytes (the gate skipped), timed in the same loop;
 * **raw**: ``CalamineWorkbook.from_path(f).get_sheet_by_name("Log").to_python()``.
 
 Run: ``python tests/benchmarks/bench_readback.py [repeats] [rows]`` (defaults 2 and 100000).
 The last line printed is JSON:
-``{"benchmark": "readback", "rows": N, "benchbook_s": ..., "raw_s": ..., "ratio": ...}`` (target ratio ≤ 1.5).
+``{"benchmark": "readback", "rows": N, "benchbook_s": ..., "raw_s": ..., "ratio": ..., ...}`` (target ratio ≤ 1.5).
 Timings are never asserted in tests.
 """
 
@@ -37,6 +41,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 from benchbook.model.catalog import DEFAULT_CATALOG  # noqa: E402
 from benchbook.model.readings import FieldBank  # noqa: E402
 from benchbook.sheets import names as N  # noqa: E402
+from benchbook.sheets import safeio  # noqa: E402
 from benchbook.sheets.checked import check_file  # noqa: E402
 
 SERIES = 22  # 3 + 22 + 1 = 26 columns
@@ -86,7 +91,16 @@ def write_big_sheet(path: Path, rows: int) -> FieldBank:
     return bank
 
 
-def run_benchbook(path: Path) -> float:
+def forget_gate_passes() -> None:
+    """Empty the safety gate's memory of files that passed (when this version of safeio keeps one)."""
+    passed = getattr(safeio, "_PASSED", None)
+    if passed is not None:
+        passed.clear()
+
+
+def run_benchbook(path: Path, first: bool = True) -> float:
+    if first:
+        forget_gate_passes()
     t0 = time.perf_counter()
     rep = check_file(path)
     dt = time.perf_counter() - t0
@@ -113,14 +127,16 @@ def main(repeats: int = 2, rows: int = 100_000) -> dict:
         assert rep.record.test.block_voltage_v.shape == (rows, SERIES)
         assert rep.record.cells.table_sheet == "Log" and rep.record.ratings == tuple(rep.record.ratings)
         print(f"check: status {rep.status}, capacity {rep.capacity_percent:.1f} %, {len(rep.findings)} findings")
-        bb, raw = [], []
+        bb, again, raw = [], [], []
         for _ in range(repeats):
             raw.append(run_raw(path))
             bb.append(run_benchbook(path))
-        b, r = min(bb), min(raw)
-        print(f"benchbook check: {b:.2f} s   bare python-calamine read: {r:.2f} s   ratio {b / r:.2f}")
+            again.append(run_benchbook(path, first=False))
+        b, a, r = min(bb), min(again), min(raw)
+        print(f"benchbook check: {b:.2f} s (again, gate remembered: {a:.2f} s)   bare python-calamine read: "
+              f"{r:.2f} s   ratio {b / r:.2f} ({a / r:.2f})")
     out = {"benchmark": "readback", "rows": rows, "benchbook_s": round(b, 3), "raw_s": round(r, 3),
-           "ratio": round(b / r, 3)}
+           "ratio": round(b / r, 3), "benchbook_again_s": round(a, 3), "ratio_gate_remembered": round(a / r, 3)}
     print(json.dumps(out))
     return out
 
