@@ -254,6 +254,68 @@ def test_two_processes_in_one_folder_never_clobber(tmp_path):
     assert not [p.name for p in tmp_path.iterdir() if p.name.endswith(".part")]
 
 
+def _cells(path: Path) -> dict:
+    """Every value of every sheet of a workbook, by (sheet, cell)."""
+    import openpyxl
+
+    wb = openpyxl.load_workbook(path)
+    return {(ws.title, c.coordinate): c.value for ws in wb.worksheets for row in ws.iter_rows() for c in row
+            if c.value is not None}
+
+
+def test_two_benchbook_check_processes_write_into_one_folder(tmp_path):
+    """Two real `benchbook check` runs at once, into one output folder: two whole copies, no temporary files."""
+    import openpyxl
+
+    from benchbook.sheets.checked import check_file
+
+    field = REPO / "samples" / "field"
+    inputs = {"ct": field / "capacity-test-clean.xlsx", "rd": field / "readings-clean.xlsx"}
+    out = tmp_path / "checked"
+    out.mkdir()
+
+    def start(src: Path, target: Path, *extra: str) -> subprocess.Popen:
+        return subprocess.Popen([sys.executable, "-m", "benchbook", "check", str(src), "-o", str(target), *extra],
+                                stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=_env())
+
+    def finish(procs: list) -> list:
+        try:
+            return [(p.communicate(timeout=600), p.returncode) for p in procs]
+        finally:
+            for p in procs:
+                if p.poll() is None:
+                    p.kill()
+                    p.wait(timeout=60)
+
+    expected = {k: check_file(p).exit_code for k, p in inputs.items()}  # 0 pass/attention, 3 a criterion fails
+    procs = [start(p, out / f"{k}.checked.xlsx") for k, p in inputs.items()]
+    results = finish(procs)
+    assert [rc for _o, rc in results] == [expected["ct"], expected["rd"]], results
+    assert all("Traceback" not in err for (_out, err), _rc in results)
+    assert sorted(p.name for p in out.iterdir()) == ["ct.checked.xlsx", "rd.checked.xlsx"]  # no .part left
+    for k, src in inputs.items():
+        copy = out / f"{k}.checked.xlsx"
+        with zipfile.ZipFile(copy) as zf:
+            assert zf.testzip() is None  # every part's CRC is right [zip]
+        assert safeio.check_workbook_file(copy) == "xlsx"
+        wb = openpyxl.load_workbook(copy)
+        assert wb["Findings"]["A1"].value == f"Check of {src.name}"
+        original = _cells(src)
+        got = _cells(copy)
+        assert {key: got.get(key) for key in original} == original  # every original value, in the right copy
+
+    # the same output name with --force from both: one whole copy of one of them, never a mix
+    procs = [start(p, out / "same.checked.xlsx", "--force") for p in inputs.values()]
+    results = finish(procs)
+    assert [rc for _o, rc in results] == [expected["ct"], expected["rd"]], results
+    assert sorted(p.name for p in out.iterdir()) == ["ct.checked.xlsx", "rd.checked.xlsx", "same.checked.xlsx"]
+    wb = openpyxl.load_workbook(out / "same.checked.xlsx")
+    winner = next(src for src in inputs.values() if wb["Findings"]["A1"].value == f"Check of {src.name}")
+    assert set(wb.sheetnames) - {"Findings"} == set(openpyxl.load_workbook(winner).sheetnames)
+    got = _cells(out / "same.checked.xlsx")
+    assert {key: got.get(key) for key in _cells(winner)} == _cells(winner)
+
+
 def test_sigkill_of_benchbook_compare_leaves_the_earlier_output_intact(tmp_path):
     """The real command: `benchbook compare` killed while it writes its hourly sheets."""
     sample = Path(__file__).resolve().parents[1] / "samples" / "offgrid-cabin.xlsx"

@@ -22,6 +22,7 @@ from __future__ import annotations
 import datetime as dt
 import difflib
 import hashlib
+import io
 import os
 import subprocess
 import sys
@@ -38,7 +39,7 @@ from benchbook.sheets import safeio
 REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(REPO / "tests"))
 from corpus.make_corpus import (  # noqa: E402
-    FILES, MAIN, REL, XML_HEAD, Sheet, book, cfb_bytes, sst_xml, valid_xlsx, zip_bytes)
+    FILES, MAIN, REL, XML_HEAD, Sheet, book, cfb_bytes, ods_bytes, patch_member, sst_xml, valid_xlsx, zip_bytes)
 
 
 def _sha(p: Path) -> str:
@@ -292,6 +293,22 @@ def test_macros_and_links_are_never_kept(tmp_path):
     assert not any("externalLink" in n for n in zipfile.ZipFile(out2).namelist())
 
 
+def test_the_gate_remembers_a_pass_by_content_and_limits_only(tmp_path):
+    """A file is scanned once per exact content; one changed byte (same size, same name) is scanned again."""
+    p = _write(tmp_path, "job.xlsx", valid_xlsx())
+    info = safeio.check_archive(p)
+    twin = _write(tmp_path, "twin.xlsx", valid_xlsx())
+    assert safeio.check_archive(twin) is info  # same bytes, same limits: the pass is remembered
+    # a wrong CRC in both headers keeps the size: still refused [zip] 4.4.7 CRC-32
+    p.write_bytes(patch_member(valid_xlsx(), "xl/worksheets/sheet2.xml", crc=0x12345678))
+    assert p.stat().st_size == twin.stat().st_size
+    with pytest.raises(FileFormatError, match="fails its size or CRC check"):
+        safeio.check_archive(p)
+    tight = safeio.ArchiveLimits(max_members=3)  # the control workbook has 8 parts
+    with pytest.raises(FileFormatError, match="over the limit max_members = 3"):
+        safeio.check_archive(twin, tight)
+
+
 def test_reading_translates_parser_errors_only(tmp_path):
     p = FILES / "malformed-sheet-xml.xlsx"
     with pytest.raises(FileFormatError, match="could not be read as a workbook \\(ParseError"):
@@ -344,6 +361,97 @@ def test_closest_matches_difflib(found):
     assert got == (expected[norm.index(oracle[0])] if oracle else None)
     assert safeio.closest("Current [A]", expected) == "Current [A]"
     assert safeio.closest("Specific gravity", expected) is None
+
+
+# --------------------------------------------------------------------------- notes for readers
+
+def test_notes_name_the_part_and_say_whether_a_hidden_sheet_was_read():
+    hidden = safeio.inspect_workbook(FILES / "hidden-sheets.xlsx")
+    assert hidden.lines() == [  # inspect_workbook itself reads every sheet [ooxml] 18.2.19 state
+        'hidden-sheets.xlsx: sheet "Loads" is hidden; benchbook read it like a visible sheet: unhide it to check '
+        "what it holds",
+        'hidden-sheets.xlsx: sheet "Secret" is very hidden (only a macro editor shows it); benchbook read it like '
+        "a visible sheet: unhide it to check what it holds"]
+    assert hidden.defined_names == (("SiteName", "Job"), ("NominalVoltage", "Job"), ("AutonomyDays", "Job"))
+    # a reader that reads the name SiteName (on Job) and no table: both hidden sheets were ignored
+    notes = safeio.reader_notes(FILES / "hidden-sheets.xlsx", names=["sitename"])
+    assert [(n.part, n.severity) for n in notes] == [("Loads", "info"), ("Secret", "info")]
+    assert all("benchbook ignored it" in n.message for n in notes)
+    link = safeio.reader_notes(FILES / "external-link.xlsx")
+    assert [(n.where, n.part, n.code, n.severity) for n in link] == [
+        ("external-link.xlsx", "xl/externalLinks/externalLink1.xml", "external-link", "warning")]
+    dde = safeio.reader_notes(FILES / "dde-link.xlsx")  # found in the link part, without scanning cells
+    assert [(n.part, n.message) for n in dde] == [
+        ("xl/externalLinks/externalLink1.xml",
+         "has a DDE link (cmd|/c calc) in part xl/externalLinks/externalLink1.xml; it was not followed or run")]
+
+
+def test_notes_without_the_cell_scan_agree_with_the_full_inspection():
+    for name in ("macro-vba.xlsm", "macro-xlm.xlsx", "external-link.xlsx", "dde-link.xlsx", "hidden-sheets.xlsx",
+                 "formulas-cached.xlsx", "valid-job.xlsx"):
+        full, quick = safeio.inspect_workbook(FILES / name), safeio.inspect_workbook(FILES / name, cells=False)
+        assert quick.formula_count == 0 and not quick.cells_scanned
+        for field in ("macro_parts", "external_links", "link_parts", "hidden_sheets", "very_hidden_sheets",
+                      "defined_names", "tables"):
+            assert getattr(quick, field) == getattr(full, field), (name, field)
+        assert quick.dde_links == tuple(d for d, part in zip(full.dde_links, full.dde_parts)
+                                        if part.startswith("xl/externalLinks/")), name
+
+
+_ODS_STYLE = "urn:oasis:names:tc:opendocument:xmlns:style:1.0"
+
+
+def _ods_with_hidden_table() -> bytes:
+    """An .ods whose table "Secret" uses a table style with table:display="false" (ODF 1.2, 20.373)."""
+    body = ('<table:table table:name="Loads" table:style-name="ta1"><table:table-row><table:table-cell '
+            'office:value-type="float" office:value="60"><text:p>60</text:p></table:table-cell></table:table-row>'
+            '</table:table><table:table table:name="Secret" table:style-name="ta2"><table:table-row>'
+            '<table:table-cell office:value-type="string"><text:p>x</text:p></table:table-cell></table:table-row>'
+            '</table:table><table:named-expressions><table:named-range table:name="site" '
+            'table:base-cell-address="$Loads.$A$1" table:cell-range-address="$Loads.$A$1"/>'
+            '</table:named-expressions><table:database-ranges><table:database-range table:name="Lists" '
+            "table:target-range-address=\"'Secret'.A1:A1\"/></table:database-ranges>")
+    data = ods_bytes(body)
+    with zipfile.ZipFile(io.BytesIO(data)) as zf:
+        parts = [(i.filename, zf.read(i)) for i in zf.infolist()]
+    styles = (f'<office:automatic-styles><style:style style:name="ta1" style:family="table"><style:table-properties '
+              'table:display="true"/></style:style><style:style style:name="ta2" style:family="table">'
+              '<style:table-properties table:display="false"/></style:style></office:automatic-styles>')
+    fixed = []
+    for name, d in parts:
+        if name == "content.xml":
+            d = d.replace(b"<office:document-content ", f'<office:document-content xmlns:style="{_ODS_STYLE}" '
+                          .encode()).replace(b"<office:body>", styles.encode() + b"<office:body>")
+        fixed.append((name, d))
+    return zip_bytes(fixed)
+
+
+def test_ods_hidden_tables_names_and_ranges(tmp_path):
+    p = _write(tmp_path, "hidden.ods", _ods_with_hidden_table())
+    for cells in (True, False):
+        n = safeio.inspect_workbook(p, cells=cells)
+        assert n.hidden_sheets == ("Secret",) and n.defined_names == (("site", "Loads"),)
+        assert n.tables == (("Lists", "Secret"),)
+    read = safeio.reader_notes(p, tables=["LISTS"])  # names and tables compare case-insensitively [ooxml]
+    ignored = safeio.reader_notes(p, names=["site"])
+    assert [(x.part, x.severity) for x in read] == [("Secret", "warning")]
+    assert [(x.part, x.severity) for x in ignored] == [("Secret", "info")]
+    plain = _write(tmp_path, "plain.ods", (FILES / "valid.ods").read_bytes())
+    assert safeio.reader_notes(plain) == []  # nothing to note: content.xml is only byte-scanned
+
+
+def test_collecting_notes_nests_and_keeps_no_duplicates():
+    outer_note = safeio.Note("a.xlsx", "xl/vbaProject.bin", "macros", "warning", "holds macros")
+    with safeio.collecting_notes() as outer:
+        safeio.report_notes([outer_note])
+        with safeio.collecting_notes() as inner:
+            safeio.report_reader_notes(FILES / "external-link.xlsx")
+            safeio.report_reader_notes(FILES / "external-link.xlsx")  # read twice (quote, then size): one note
+        safeio.report_notes([outer_note])
+    assert [n.code for n in inner] == ["external-link"]
+    assert outer == [outer_note]
+    assert str(outer_note) == "a.xlsx: holds macros"
+    safeio.report_notes([outer_note])  # outside any block: dropped, no error
 
 
 # --------------------------------------------------------------------------- numbers
@@ -451,7 +559,9 @@ def test_parse_date_text_and_cells():
     assert safeio.parse_date(dt.datetime(2024, 3, 5, 8), where=w) == dt.date(2024, 3, 5)
     for bad, words in [("05/03/2024", "may be day/month or month/day"), ("2023-02-30", "no such calendar date"),
                        ("5/3/24", "four digits"), ("March 5", "YYYY-MM-DD"), (60, "1900-02-29"), (True, "YYYY-MM-DD"),
-                       (float("nan"), "serial day")]:
+                       (float("nan"), "serial day"),
+                       # python-calamine hands a date cell holding a negative serial over as a time of day
+                       (dt.time(0, 0), "the cell holds a time of day, not a date")]:
         with pytest.raises(InputError) as info:
             safeio.parse_date(bad, where=w, what="test date")
         assert str(info.value).startswith("Log!B3: test date: found") and words in str(info.value), bad

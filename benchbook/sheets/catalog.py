@@ -21,7 +21,7 @@ from typing import Any, Optional, Sequence
 from benchbook.errors import FileFormatError, Problems, TemplateError
 from benchbook.model.battery import BatterySpec, spec_problems
 from benchbook.sheets.names import BATTERY_HEADERS, CYCLE_DODS, INTAKE, RATE_HOURS, TableSpec
-from benchbook.sheets.safeio import atomic_output, sniff
+from benchbook.sheets.safeio import atomic_output, report_reader_notes, sniff
 from benchbook.sheets.tables import (Book, CellRef, Found, TableInfo, as_typed, coerce, find_table, is_blank,
                                      match_headers, write_text, write_value)
 
@@ -55,7 +55,10 @@ def read_catalog(path: str | Path) -> tuple[BatterySpec, ...]:
     Returns
     -------
     tuple of BatterySpec
-        In row order.
+        In row order. Macros, links, hidden sheets and formulas in the
+        table's cells (cached values used, never evaluated) of a catalog workbook
+        are handed to :func:`benchbook.sheets.safeio.report_notes` (the CLI
+        prints them as warnings).
 
     Raises
     ------
@@ -82,6 +85,8 @@ def read_catalog_entries(path: str | Path, problems: Problems, label: str | None
     if p.suffix.lower() == ".csv" or (p.is_file() and sniff(p) == "text"):
         return _read_csv(p, problems)
     with Book(p, label=f"[{p.name}]" if label is None else label) as book:
+        # macros, links, hidden sheets, formulas in its cells (cached values used): CLI warnings
+        report_reader_notes(p, tables=(BATTERIES.name,), input_formulas=True, label=book.label)
         return entries_from_book(book, problems)
 
 

@@ -18,7 +18,7 @@ from benchbook.model.battery import BatterySpec
 from benchbook.model.job import DutyPeriod, Economics, Generator, HourlyProfile, Job, Load
 from benchbook.sheets.catalog import CatalogEntry, entries_from_book, read_catalog_entries
 from benchbook.sheets.names import HOURS_PER_YEAR, INTAKE, MONTHS, NameSpec, TableSpec, template_bytes
-from benchbook.sheets.safeio import atomic_output
+from benchbook.sheets.safeio import atomic_output, report_reader_notes
 from benchbook.sheets.tables import Book, CellRef, Found, as_typed, coerce, find_table, is_blank, match_headers
 
 #: Problems reported cell by cell for one table before the rest are summed up in one line.
@@ -95,8 +95,8 @@ class _Reader:
                          f"{spec.caption} (check the workbook with benchbook template-check)", what)
                 self.bad.add(spec.name)
             return
-        if t.problem:
-            self.add(None, Found(f"defined name {spec.name} pointing to {t.reason}"),
+        if t.problem:  # a broken name is an error even when the field is optional (only a missing one defaults)
+            self.add(t.at, Found(f"defined name {spec.name} pointing to {t.reason}"),
                      "a defined name pointing to one cell of this workbook", what)
             self.bad.add(spec.name)
             return
@@ -227,7 +227,11 @@ def read_job(path: str | Path, catalog_path: str | Path | None = None) -> tuple[
         The job and every valid battery of the catalog, in row order. Batteries
         whose block voltage does not divide the system voltage are kept (the
         sizing layer excludes and flags them); when *no* battery divides it, that
-        is an error.
+        is an error. Macros, external or DDE links, hidden sheets and formulas
+        in input cells (their cached values are used, never evaluated) of the
+        workbook (and of a catalog workbook) are handed to
+        :func:`benchbook.sheets.safeio.report_notes`; the CLI prints them as
+        ``Warning: …`` lines.
 
     Raises
     ------
@@ -240,6 +244,11 @@ def read_job(path: str | Path, catalog_path: str | Path | None = None) -> tuple[
     p = Path(path)
     problems = Problems(p.name)
     with Book(p) as book:
+        # macros, links and hidden sheets go to the CLI as warnings (the catalog reports its own)
+        # and formulas in input cells, whose cached values are used (never evaluated)
+        report_reader_notes(p, names=[s.name for s in INTAKE.names],
+                            tables=[t.name for t in INTAKE.tables if catalog_path is None or t.name != "Batteries"],
+                            input_formulas=True)
         rd = _Reader(book, problems)
         rd.read_name(INTAKE.name("job_application"), None)
         app = rd.values.get("job_application") if rd.good("job_application") else None

@@ -24,31 +24,33 @@ killed process never leaves a partial file at the output path. Such leftovers
 are removed by the next :func:`atomic_output` in that folder once they are
 older than :data:`STALE_PART_SECONDS`.
 
-Inspection of a workbook's contents (macros, links, formulas), defined names,
-sheet and header look-ups live in :mod:`benchbook.sheets.safeio_notes`; number
-and date parsing in :mod:`benchbook.sheets.safeio_numbers`. Both are re-exported
+Inspection of a workbook's contents (macros, links, formulas, hidden sheets)
+and defined names live in :mod:`benchbook.sheets.safeio_notes`; readers and
+sheet and header look-ups in :mod:`benchbook.sheets.safeio_read`; number and
+date parsing in :mod:`benchbook.sheets.safeio_numbers`. All are re-exported
 here, so callers need only ``from benchbook.sheets import safeio``.
 """
 
 from __future__ import annotations
 
+import collections
 import contextlib
 import dataclasses
+import hashlib
 import importlib
 import io
 import os
 import stat
 import struct
+import threading
 import zipfile
 import zlib
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterator
 
-import numpy as np
-
 from benchbook.errors import BenchbookError, FileFormatError
-from benchbook.sheets.safeio_kind import ole_message, sniff, text_kind
+from benchbook.sheets.safeio_kind import CellExtent, col_name, ole_message, sniff, text_kind
 
 MiB = 1024**2
 
@@ -222,62 +224,6 @@ class _Damaged(Exception):
     pass
 
 
-class _CellExtent:
-    """Last row and column reached by ``r="A1"``-style cell references in an XML stream (vectorized).
-
-    Fed chunk by chunk; the last 16 bytes are scanned again with the next
-    chunk, so a reference cut at a chunk edge is read whole there (a cut one
-    can only under-read, never over-read).
-    """
-
-    def __init__(self) -> None:
-        self.rows = 0
-        self.cols = 0
-        self._tail = b""
-
-    def feed(self, chunk: bytes) -> None:
-        buf = self._tail + chunk
-        self._tail = buf[-16:]
-        a = np.frombuffer(buf, dtype=np.uint8)
-        n = a.size
-        if n < 6:
-            return
-        prev, quote = a[0:n - 3], (a[3:n] == 0x22) | (a[3:n] == 0x27)
-        space = (prev == 32) | (prev == 9) | (prev == 10) | (prev == 13)
-        hit = np.flatnonzero((a[1:n - 2] == 0x72) & (a[2:n - 1] == 0x3D) & quote & space) + 4
-        if hit.size == 0:
-            return
-        pad = np.concatenate([a, np.zeros(12, dtype=np.uint8)])
-        up = [pad[hit + k] & 0xDF for k in range(3)]  # the first three characters, upper-cased
-        let = [(u >= 65) & (u <= 90) for u in up]
-        nlet = let[0] * (1 + let[1] * (1 + let[2]))  # leading letters: 0 to 3
-        keep = nlet > 0
-        if not keep.any():
-            return
-        hit, nlet = hit[keep], nlet[keep]
-        c0, c1, c2 = (u[keep].astype(np.int64) - 64 for u in up)
-        col = np.where(nlet == 1, c0, np.where(nlet == 2, c0 * 26 + c1, c0 * 676 + c1 * 26 + c2))
-        start = hit + nlet
-        row = np.zeros(hit.size, dtype=np.int64)
-        going = np.ones(hit.size, dtype=bool)
-        for k in range(8):
-            d = pad[start + k].astype(np.int64) - 48
-            going &= (d >= 0) & (d <= 9)
-            row = np.where(going, row * 10 + d, row)
-        ok = row > 0
-        if ok.any():
-            self.rows = max(self.rows, int(row[ok].max()))
-            self.cols = max(self.cols, int(col[ok].max()))
-
-
-def _col_name(n: int) -> str:
-    s = ""
-    while n > 0:
-        n, r = divmod(n - 1, 26)
-        s = chr(65 + r) + s
-    return s
-
-
 def _sheet_title(p: Path, part: str) -> str:
     try:
         from benchbook.sheets.safeio_notes import sheet_parts  # noqa: PLC0415
@@ -370,7 +316,9 @@ def check_archive(path: str | os.PathLike, limits: ArchiveLimits | None = None) 
     """Check a workbook file completely (what it is, its archive, every part) and describe it.
 
     Every part is unpacked as a stream and counted against ``limits``; its CRC
-    is verified; XML parts are scanned for document type declarations.
+    is verified; XML parts are scanned for document type declarations. A file
+    whose exact bytes already passed under the same limits (same SHA-256) is
+    not scanned again.
 
     Parameters
     ----------
@@ -418,11 +366,57 @@ def check_archive(path: str | os.PathLike, limits: ArchiveLimits | None = None) 
         raise FileFormatError(f"{name}: is {text_kind(p)}; open it in a spreadsheet application and save it as .xlsx")
     if kind != "zip":
         raise FileFormatError(f"{name}: is not a workbook (its bytes match no spreadsheet format); save it as .xlsx")
+    try:
+        digest = _digest(p)
+    except OSError as exc:
+        raise FileFormatError(f"{name}: cannot be read ({exc.strerror}); check its permissions") from None
+    known = _passed_get((digest, limits))
+    if known is not None:
+        return known
+    info = _scan_archive(p, name, st.st_size, limits)
+    _passed_put((digest, limits), info)
+    return info
+
+
+# Files that passed the gate, by content: one read of a workbook often opens it several times (the
+# read-back, the notes, the checked copy), and the full scan of a 100,000-row log costs far more than
+# hashing its bytes. Only passes are remembered, keyed by the SHA-256 of the whole file and the
+# limits, so a changed byte is a new file; the parsers re-open the file in any case.
+_PASSED: "collections.OrderedDict[tuple[bytes, ArchiveLimits], ArchiveInfo]" = collections.OrderedDict()
+_PASSED_LOCK = threading.Lock()
+_PASSED_MAX = 32
+
+
+def _digest(p: Path) -> bytes:
+    h = hashlib.sha256()
+    with open(p, "rb") as fh:
+        for block in iter(lambda: fh.read(_SCAN_CHUNK), b""):
+            h.update(block)
+    return h.digest()
+
+
+def _passed_get(key: tuple[bytes, ArchiveLimits]) -> ArchiveInfo | None:
+    with _PASSED_LOCK:
+        info = _PASSED.get(key)
+        if info is not None:
+            _PASSED.move_to_end(key)
+        return info
+
+
+def _passed_put(key: tuple[bytes, ArchiveLimits], info: ArchiveInfo) -> None:
+    with _PASSED_LOCK:
+        _PASSED[key] = info
+        while len(_PASSED) > _PASSED_MAX:
+            _PASSED.popitem(last=False)
+
+
+def _scan_archive(p: Path, name: str, size_on_disk: int, limits: ArchiveLimits) -> ArchiveInfo:
+    """The archive checks of :func:`check_archive`, after the file was found to be a zip."""
     damaged = (f"{name}: is a damaged or truncated workbook archive ({{}}); open it in a spreadsheet application, "
                "repair it if offered, and save it again as .xlsx")
     try:
         with open(p, "rb") as fh, zipfile.ZipFile(fh) as zf:
-            _zip_structure(name, zf, st.st_size, limits)
+            _zip_structure(name, zf, size_on_disk, limits)
             infos = zf.infolist()
             members = tuple(i.filename for i in infos)
             total = 0
@@ -431,7 +425,7 @@ def check_archive(path: str | os.PathLike, limits: ArchiveLimits | None = None) 
             for info in infos:
                 count, crc, tail = 0, 0, b""
                 scan = _is_xml_part(info.filename)
-                extent = _CellExtent() if scan and info.filename.startswith("xl/") and not info.filename.endswith(
+                extent = CellExtent() if scan and info.filename.startswith("xl/") and not info.filename.endswith(
                     "sharedStrings.xml") else None
                 for chunk in _unpack(fh, info):
                     count += len(chunk)
@@ -463,7 +457,7 @@ def check_archive(path: str | os.PathLike, limits: ArchiveLimits | None = None) 
                     if extent.rows * extent.cols > limits.max_cells:
                         raise FileFormatError(
                             f"{name}: {_sheet_title(p, info.filename)} has cells as far as row {extent.rows} and "
-                            f"column {_col_name(extent.cols)}, a grid of {extent.rows * extent.cols:,} cells, over "
+                            f"column {col_name(extent.cols)}, a grid of {extent.rows * extent.cols:,} cells, over "
                             f"the limit max_cells = {limits.max_cells:,}; delete stray values far from the data, "
                             f"or, if you trust the file, raise the limit with --max-cells")
                 if (count > limits.ratio_floor_bytes and info.compress_size > 0
@@ -537,18 +531,21 @@ _LAZY = {
     "load_openpyxl": "safeio_read", "read_values": "safeio_read", "reading": "safeio_read",
     "require_defusedxml": "safeio_read",
     "atomic_output": "safeio_write", "clean_stale_parts": "safeio_write", "STALE_PART_SECONDS": "safeio_write",
-    "CellRef": "safeio_notes", "FormulaCell": "safeio_notes", "WorkbookNotes": "safeio_notes",
-    "closest": "safeio_notes", "inspect_workbook": "safeio_notes", "missing_sheet": "safeio_notes",
-    "require_sheet": "safeio_notes", "resolve_defined_name": "safeio_notes", "resolve_defined_names": "safeio_notes",
+    "closest": "safeio_read", "missing_sheet": "safeio_read", "require_sheet": "safeio_read",
+    "CellRef": "safeio_notes", "FormulaCell": "safeio_notes", "Note": "safeio_notes", "WorkbookNotes": "safeio_notes",
+    "collecting_notes": "safeio_notes", "inspect_workbook": "safeio_notes", "reader_notes": "safeio_notes",
+    "report_notes": "safeio_notes", "report_reader_notes": "safeio_notes",
+    "resolve_defined_name": "safeio_names", "resolve_defined_names": "safeio_names",
     "parse_date": "safeio_numbers", "parse_number": "safeio_numbers",
 }
 
 if TYPE_CHECKING:  # pragma: no cover - for readers and type checkers
-    from benchbook.sheets.safeio_notes import (CellRef, FormulaCell, WorkbookNotes, closest, inspect_workbook,
-                                               missing_sheet, require_sheet, resolve_defined_name,
-                                               resolve_defined_names)
+    from benchbook.sheets.safeio_names import resolve_defined_name, resolve_defined_names
+    from benchbook.sheets.safeio_notes import (CellRef, FormulaCell, Note, WorkbookNotes, collecting_notes,
+                                               inspect_workbook, reader_notes, report_notes, report_reader_notes)
     from benchbook.sheets.safeio_numbers import parse_date, parse_number
-    from benchbook.sheets.safeio_read import load_openpyxl, read_values, reading, require_defusedxml
+    from benchbook.sheets.safeio_read import (closest, load_openpyxl, missing_sheet, read_values, reading,
+                                              require_defusedxml, require_sheet)
     from benchbook.sheets.safeio_write import STALE_PART_SECONDS, atomic_output, clean_stale_parts
 
 

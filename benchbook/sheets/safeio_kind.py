@@ -1,4 +1,4 @@
-"""What a file is, by its bytes: zip, OLE compound file, PDF, text, or unknown.
+"""What a file is, by its bytes: zip, OLE compound file, PDF, text, or unknown; how far its cells reach.
 
 Part of :mod:`benchbook.sheets.safeio` (used by its archive gate).
 """
@@ -9,6 +9,8 @@ import os
 import stat
 import struct
 from pathlib import Path
+
+import numpy as np
 
 _OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
 _BOMS = (b"\xef\xbb\xbf", b"\xff\xfe", b"\xfe\xff")
@@ -116,3 +118,60 @@ def ole_message(path: Path) -> str:
         return f"{name}: is a PowerPoint file, not a workbook; give the path of the .xlsx workbook"
     return (f"{name}: is an OLE compound file (a legacy Office file, or an encrypted workbook) that benchbook "
             "cannot read; remove any password and save it as .xlsx")
+
+
+class CellExtent:
+    """Last row and column reached by ``r="A1"``-style cell references in an XML stream (vectorized).
+
+    Fed chunk by chunk; the last 16 bytes are scanned again with the next
+    chunk, so a reference cut at a chunk edge is read whole there (a cut one
+    can only under-read, never over-read).
+    """
+
+    def __init__(self) -> None:
+        self.rows = 0
+        self.cols = 0
+        self._tail = b""
+
+    def feed(self, chunk: bytes) -> None:
+        buf = self._tail + chunk
+        self._tail = buf[-16:]
+        a = np.frombuffer(buf, dtype=np.uint8)
+        n = a.size
+        if n < 6:
+            return
+        prev, quote = a[0:n - 3], (a[3:n] == 0x22) | (a[3:n] == 0x27)
+        space = (prev == 32) | (prev == 9) | (prev == 10) | (prev == 13)
+        hit = np.flatnonzero((a[1:n - 2] == 0x72) & (a[2:n - 1] == 0x3D) & quote & space) + 4
+        if hit.size == 0:
+            return
+        pad = np.concatenate([a, np.zeros(12, dtype=np.uint8)])
+        up = [pad[hit + k] & 0xDF for k in range(3)]  # the first three characters, upper-cased
+        let = [(u >= 65) & (u <= 90) for u in up]
+        nlet = let[0] * (1 + let[1] * (1 + let[2]))  # leading letters: 0 to 3
+        keep = nlet > 0
+        if not keep.any():
+            return
+        hit, nlet = hit[keep], nlet[keep]
+        c0, c1, c2 = (u[keep].astype(np.int64) - 64 for u in up)
+        col = np.where(nlet == 1, c0, np.where(nlet == 2, c0 * 26 + c1, c0 * 676 + c1 * 26 + c2))
+        start = hit + nlet
+        row = np.zeros(hit.size, dtype=np.int64)
+        going = np.ones(hit.size, dtype=bool)
+        for k in range(8):
+            d = pad[start + k].astype(np.int64) - 48
+            going &= (d >= 0) & (d <= 9)
+            row = np.where(going, row * 10 + d, row)
+        ok = row > 0
+        if ok.any():
+            self.rows = max(self.rows, int(row[ok].max()))
+            self.cols = max(self.cols, int(col[ok].max()))
+
+
+def col_name(n: int) -> str:
+    """Column letters of 1-based column ``n`` (28 -> AB)."""
+    s = ""
+    while n > 0:
+        n, r = divmod(n - 1, 26)
+        s = chr(65 + r) + s
+    return s

@@ -272,6 +272,8 @@ def parse_date(value: Any, *, where: Any, what: str = "", dayfirst: bool | None 
         return value
     if isinstance(value, bool):
         raise fail()
+    if isinstance(value, dt.time):  # a date cell holding a number below day 1 (a negative serial) reads as a time
+        raise InputError(sheet, cell, value.strftime("%H:%M:%S"), expected + "; the cell holds a time of day, not a date", what)
     if isinstance(value, numbers.Real):
         x = float(value)
         if not math.isfinite(x) or x < (0 if date1904 else 1) or x >= 2958466:

@@ -1,22 +1,25 @@
-"""Reading workbooks safely: openpyxl and python-calamine behind the archive gate.
+"""Reading workbooks safely: openpyxl and python-calamine behind the archive gate; sheets and headers.
 
 Part of :mod:`benchbook.sheets.safeio` (re-exported there; import it from there).
+:func:`require_sheet` / :func:`missing_sheet` explain a missing, renamed or
+hidden sheet; :func:`closest` finds the expected header a user meant.
 """
 
 from __future__ import annotations
 
 import contextlib
+import difflib
 import io
 import os
+import re
 import warnings
 import zipfile
 import zlib
 from pathlib import Path
-from typing import Any, Iterator, Sequence
+from typing import Any, Iterable, Iterator, Sequence
 
 from benchbook.errors import BenchbookError, FileFormatError, InputError
 from benchbook.sheets.safeio import ArchiveLimits, IntegrityError, check_workbook_file, limits_in_force
-from benchbook.sheets.safeio_notes import missing_sheet
 
 _TABLE = "{urn:oasis:names:tc:opendocument:xmlns:table:1.0}"
 _OFFICE = "{urn:oasis:names:tc:opendocument:xmlns:office:1.0}"
@@ -245,3 +248,76 @@ def read_values(path: str | os.PathLike, sheet: str | int, *, limits: ArchiveLim
                               "application and save it again as .xlsx") from None
 
 
+# --------------------------------------------------------------------------- sheets and headers
+
+class _Sheets(tuple):
+    def __repr__(self) -> str:
+        return "sheets " + ", ".join(f'"{s}"' for s in self) if self else "no sheets"
+
+
+def missing_sheet(name: str, available: Sequence[str], *, source: str = "") -> InputError:
+    """The error for a sheet that is not in a workbook, naming the sheets there and the likely rename.
+
+    Returns the :class:`InputError` (the caller raises it, or adds it to its
+    :class:`~benchbook.errors.Problems`).
+    """
+    near = [s for s in available if s.strip().casefold() == name.strip().casefold()]
+    hint = ""
+    if near:
+        hint = f'; "{near[0]}" differs only in spaces or capitals: rename it to "{name}"'
+    else:
+        guess = closest(name, available)
+        if guess:
+            hint = f'; did you mean "{guess}"? (it may have been renamed): rename it back to "{name}"'
+    return InputError(source or "workbook", "", _Sheets(available), f'a sheet named "{name}"{hint}', f'sheet "{name}"')
+
+
+def require_sheet(wb: Any, name: str, *, source: str = "", hidden_ok: bool = True) -> Any:
+    """The worksheet ``name`` of an openpyxl workbook, or a clear :class:`InputError`.
+
+    A sheet whose name differs only in capitals is accepted (Excel treats
+    sheet names case-insensitively). A hidden sheet is refused unless
+    ``hidden_ok``.
+    """
+    names = list(wb.sheetnames)
+    title = name if name in names else next((s for s in names if s.casefold() == name.casefold()), None)
+    if title is None:
+        raise missing_sheet(name, names, source=source)
+    ws = wb[title]
+    state = getattr(ws, "sheet_state", "visible")
+    if state != "visible" and not hidden_ok:
+        raise InputError(source or "workbook", "", state, "a visible sheet; unhide it in the spreadsheet "
+                         "application and check its values", f'sheet "{name}"')
+    return ws
+
+
+def _norm_header(text: str) -> str:
+    t = " ".join(str(text).replace("(", "[").replace(")", "]").split()).casefold()
+    return re.sub(r"\s*\[\s*", " [", t).replace(" ]", "]")
+
+
+def closest(header: Any, expected_headers: Iterable[str], cutoff: float = 0.6) -> str | None:
+    """The expected header that ``header`` most likely means, or ``None``.
+
+    Spaces, capitals and round-versus-square unit brackets are ignored first
+    (``"current (a)"`` is ``"Current [A]"``); otherwise the nearest by
+    :func:`difflib.get_close_matches` with ratio at least ``cutoff``.
+
+    Parameters
+    ----------
+    header : Any
+        The header found in the sheet.
+    expected_headers : iterable of str
+        The headers the table should have.
+    cutoff : float
+        Smallest similarity ratio accepted. [-]
+    """
+    expected = list(expected_headers)
+    if header is None or not expected:
+        return None
+    norm = {_norm_header(e): e for e in expected}
+    key = _norm_header(header)
+    if key in norm:
+        return norm[key]
+    match = difflib.get_close_matches(key, list(norm), n=1, cutoff=cutoff)
+    return norm[match[0]] if match else None

@@ -72,7 +72,8 @@ class NameTarget:
 
     ``problem`` is ``""`` for a good single cell, else one of ``"missing"``,
     ``"ref-error"``, ``"external"``, ``"range"``, ``"no-sheet"``, ``"not-a-cell"``;
-    ``reason`` says it in words.
+    ``reason`` says it in words. ``at`` is the top-left cell of a name that
+    points to a range (where an error about it is shown), else ``None``.
     """
 
     name: str
@@ -80,6 +81,7 @@ class NameTarget:
     cell: Optional[CellRef]
     problem: str = ""
     reason: str = ""
+    at: Optional[CellRef] = None
 
 
 def _lookup(mapping, name: str):
@@ -135,10 +137,12 @@ def resolve_name(wb, name: str) -> NameTarget:
     except (ValueError, TypeError):
         return NameTarget(name, text, None, "not-a-cell", f"something that is not a cell ({text})")
     if None in (c1, r1, c2, r2):
-        return NameTarget(name, text, None, "range", f"whole rows or columns ({text})")
+        return NameTarget(name, text, None, "range", f"whole rows or columns ({text})",
+                          CellRef(sheet, r1 or 1, c1 or 1))
     if (c1, r1) != (c2, r2):
         n = (c2 - c1 + 1) * (r2 - r1 + 1)
-        return NameTarget(name, text, None, "range", f"a range of {n} cells ({text})")
+        return NameTarget(name, text, None, "range", f"a range of {n} cells ({text})",
+                          CellRef(sheet, r1, c1))
     return NameTarget(name, text, CellRef(sheet, r1, c1))
 
 

@@ -313,3 +313,55 @@ def laughs(root: str, levels: int = 9) -> str:
 
 
 BOMB = "&lol9;"
+
+
+# --------------------------------------------------------------------------- parts added to real workbooks
+
+def external_link_parts(target: str = "file:///C:/quotes/price-list-2031.xlsx"
+                        ) -> tuple[tuple[str, bytes, str, str], ...]:
+    """A link to another workbook (ECMA-376 Part 1, 18.14 externalBook), as ``book(extra=...)`` entries."""
+    link = (XML_HEAD + f'<externalLink xmlns="{MAIN}" xmlns:r="{REL}"><externalBook r:id="rId1"><sheetNames>'
+            '<sheetName val="Prices"/></sheetNames><sheetDataSet><sheetData sheetId="0"><row r="2"><cell r="B2">'
+            "<v>310</v></cell></row></sheetData></sheetDataSet></externalBook></externalLink>").encode()
+    link_rels = (XML_HEAD + f'<Relationships xmlns="{PKG}"><Relationship Id="rId1" Type="{REL}/externalLinkPath" '
+                 f'Target="{esc(target)}" TargetMode="External"/></Relationships>').encode()
+    return (("xl/externalLinks/externalLink1.xml", link, f"{SML}.externalLink+xml", f"{REL}/externalLink"),
+            ("xl/externalLinks/_rels/externalLink1.xml.rels", link_rels, "", ""))
+
+
+def vba_parts() -> tuple[tuple[str, bytes, str, str], ...]:
+    """An inert, invented VBA project part ([MS-CFB] container), as ``book(extra=...)`` entries."""
+    vba = cfb_bytes([("dir", b"invented, inert project stream"), ("Module1", b"Sub Invented()\r\nEnd Sub\r\n")],
+                    storages=("VBA",))
+    return (("xl/vbaProject.bin", vba, "application/vnd.ms-office.vbaProject",
+             "http://schemas.microsoft.com/office/2006/relationships/vbaProject"),)
+
+
+def add_parts(data: bytes, extra: tuple[tuple[str, bytes, str, str], ...]) -> bytes:
+    """Add parts to a finished .xlsx (one openpyxl wrote, say), as ``book(extra=...)`` does for a new one.
+
+    Each part gets its content type and, when it has a relationship type, a
+    workbook relationship; an external link is also listed in the workbook's
+    ``externalReferences`` (ECMA-376 Part 1, 18.2.9), where spreadsheet
+    applications look for it. Every other part is kept byte for byte.
+    """
+    with zipfile.ZipFile(io.BytesIO(data)) as zf:
+        parts = [(i.filename, zf.read(i)) for i in zf.infolist()]
+    text = {n: d.decode("utf-8") for n, d in parts
+            if n in ("[Content_Types].xml", "xl/_rels/workbook.xml.rels", "xl/workbook.xml")}
+    refs = []
+    for k, (part, _d, ctype, rtype) in enumerate(extra):
+        if ctype:
+            text["[Content_Types].xml"] = text["[Content_Types].xml"].replace(
+                "</Types>", f'<Override PartName="/{part}" ContentType="{ctype}"/></Types>')
+        if rtype:
+            rid = f"rIdAdded{k}"
+            text["xl/_rels/workbook.xml.rels"] = text["xl/_rels/workbook.xml.rels"].replace(
+                "</Relationships>", f'<Relationship Id="{rid}" Type="{rtype}" Target="/{part}"/></Relationships>')
+            if rtype.endswith("/externalLink"):
+                refs.append(f'<externalReference xmlns:r="{REL}" r:id="{rid}"/>')
+    if refs:
+        text["xl/workbook.xml"] = text["xl/workbook.xml"].replace(
+            "</sheets>", "</sheets><externalReferences>" + "".join(refs) + "</externalReferences>", 1)
+    out = [(n, text[n].encode("utf-8") if n in text else d) for n, d in parts]
+    return zip_bytes(out + [(part, d) for part, d, _c, _r in extra])

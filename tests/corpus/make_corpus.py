@@ -36,8 +36,8 @@ from typing import Callable
 sys.path.insert(0, str(Path(__file__).resolve().parent))  # run as a script or imported as corpus.make_corpus
 from builders import (  # noqa: E402,F401 - re-exported for the tests
     BOMB, CT_NS, JOB_NAMES, JOB_STRINGS, MAIN, ODS_TABLE, PKG, REL, SML, XML_HEAD, Sheet, add_overlapping_entry,
-    book, c_inline, c_num, c_str, cfb_bytes, job_sheets, laughs, member_data_span,
-    ods_bytes, patch_member, replace_part, row, sheet_xml, sst_xml, valid_parts, valid_xlsx, zip_bytes)
+    add_parts, book, c_inline, c_num, c_str, cfb_bytes, external_link_parts, job_sheets, laughs, member_data_span,
+    ods_bytes, patch_member, replace_part, row, sheet_xml, sst_xml, valid_parts, valid_xlsx, vba_parts, zip_bytes)
 
 HERE = Path(__file__).resolve().parent
 FILES = HERE / "files"
@@ -102,15 +102,8 @@ def _utf16_doctype() -> bytes:
 
 
 def _external_link() -> bytes:
-    link = (XML_HEAD + f'<externalLink xmlns="{MAIN}" xmlns:r="{REL}"><externalBook r:id="rId1"><sheetNames>'
-            '<sheetName val="Prices"/></sheetNames><sheetDataSet><sheetData sheetId="0"><row r="2"><cell r="B2">'
-            "<v>310</v></cell></row></sheetData></sheetDataSet></externalBook></externalLink>").encode()
-    link_rels = (XML_HEAD + f'<Relationships xmlns="{PKG}"><Relationship Id="rId1" Type="{REL}/externalLinkPath" '
-                 'Target="file:///C:/quotes/price-list-2031.xlsx" TargetMode="External"/></Relationships>').encode()
     rows = row(1, c_str("A1", 0) + "<c r=\"B1\"><f>[1]Prices!B2</f><v>310</v></c>")
-    return zip_bytes(book([Sheet("Data", sheet_xml(rows))], sst_xml(["Unit price"]), extra=(
-        ("xl/externalLinks/externalLink1.xml", link, f"{SML}.externalLink+xml", f"{REL}/externalLink"),
-        ("xl/externalLinks/_rels/externalLink1.xml.rels", link_rels, "", ""))))
+    return zip_bytes(book([Sheet("Data", sheet_xml(rows))], sst_xml(["Unit price"]), extra=external_link_parts()))
 
 
 def _dde_link() -> bytes:
@@ -131,11 +124,7 @@ def _formulas(cached: bool) -> bytes:
 
 
 def _macro_vba() -> bytes:
-    vba = cfb_bytes([("dir", b"invented, inert project stream"), ("Module1", b"Sub Invented()\r\nEnd Sub\r\n")],
-                    storages=("VBA",))
-    return zip_bytes(book(job_sheets(), sst_xml(JOB_STRINGS), JOB_NAMES, macro=True, extra=(
-        ("xl/vbaProject.bin", vba, "application/vnd.ms-office.vbaProject",
-         "http://schemas.microsoft.com/office/2006/relationships/vbaProject"),)))
+    return zip_bytes(book(job_sheets(), sst_xml(JOB_STRINGS), JOB_NAMES, macro=True, extra=vba_parts()))
 
 
 def _macro_xlm() -> bytes:
