@@ -25,7 +25,7 @@ PAGES = (
     ("jobs/offgrid-larchmoor.xlsx", 1, "intake-job"),
     ("quotes/offgrid-larchmoor-quote.xlsx", 1, "quote-page1"),
     ("quotes/offgrid-larchmoor-quote.xlsx", 2, "quote-page2"),
-    ("compare/offgrid-larchmoor-options.xlsx", 1, "compare-summary"),
+    ("compare/standby-brindle-hill-options.xlsx", 1, "compare-summary"),  # three options meet its requirement
     ("field/DC-A-capacity-test.xlsx", 1, "fieldsheet-capacity-test"),
     ("field/DC-A-readings.xlsx", 1, "fieldsheet-readings"),
     ("field/checked/DC-A-readings-2026-03.checked.xlsx", None, "checked-findings"),

@@ -28,7 +28,7 @@ def _named(wb, name):
 
 def test_demo_writes_the_whole_job(demo):
     out, r = demo
-    expected = ["jobs/offgrid-larchmoor.xlsx", "jobs/standby-brindle-hill.xlsx",
+    expected = ["templates/fernwick-quote-template.xlsx", "jobs/offgrid-larchmoor.xlsx", "jobs/standby-brindle-hill.xlsx",
                 "compare/offgrid-larchmoor-options.xlsx", "compare/standby-brindle-hill-options.xlsx",
                 "quotes/offgrid-larchmoor-quote.xlsx", "quotes/standby-brindle-hill-quote.xlsx",
                 "field/DC-A-capacity-test.xlsx", "field/DC-A-readings.xlsx",
@@ -40,6 +40,19 @@ def test_demo_writes_the_whole_job(demo):
     assert len(list((out / "field" / "checked").glob("*.checked.xlsx"))) == 2
     assert "Larchmoor upland research hut" in r.stdout and "Brindle Hill relay shelter" in r.stdout
     assert "local codes" in r.stdout.lower() or "licensed practice" in r.stdout
+
+
+def test_quotes_carry_the_invented_firms_letterhead(demo):
+    # the demo quotes in the firm's own copy of the template (benchbook's contract: a firm restyles its template,
+    # benchbook fills it by defined names); the placeholder letterhead is gone
+    from benchbook.sheets.demo import DEMO_FIRM
+
+    out, _ = demo
+    for name in ("offgrid-larchmoor", "standby-brindle-hill"):
+        wb = openpyxl.load_workbook(out / "quotes" / f"{name}-quote.xlsx")
+        text = [c.value for ws in wb for row in ws.iter_rows() for c in row if isinstance(c.value, str)]
+        assert DEMO_FIRM in text and not any(t.startswith("[Firm name") for t in text)
+        assert "(invented)" in DEMO_FIRM
 
 
 def test_quote_grand_total_is_the_sum_of_its_lines(demo):
@@ -108,6 +121,7 @@ def test_checked_copies_name_the_planted_mistakes(demo):
     # decimal commas and units typed into cells
     assert "read as 1.2" in readings and "SG points" in readings
     assert "string total" in readings
+    assert "looks like °F" in readings  # one temperature typed in °F among °C readings
     assert "decimal comma" in readings
     assert "unit 'V' removed" in readings or "unit 'µΩ' removed" in readings
     test = found["DC-A-capacity-test-2026-03.checked.xlsx"]

@@ -50,7 +50,8 @@ class DemoResult:
 
     def summary(self) -> str:
         """A short, printable account of what was made and where."""
-        lines = [f"benchbook demo: an invented firm's week, written to {self.outdir}", ""]
+        lines = [f"benchbook demo: an invented firm's week, written to {self.outdir}",
+                 f"  the firm's own quote template: templates/fernwick-quote-template.xlsx ({DEMO_FIRM})", ""]
         for d in self.jobs:
             job = d.job
             best = d.evaluated[0]
@@ -107,6 +108,28 @@ def _save_job(wb, path: Path) -> Path:
     return path
 
 
+#: The invented firm whose week the demo is: its letterhead goes into its own copy of the quote template.
+DEMO_FIRM = "Fernwick Battery Works (invented) · 12 Mill Row, Ashcombe · Electrical contractor licence EC-00417"
+
+
+def firm_template(path: Path) -> Path:
+    """The shipped quote template with the invented firm's letterhead, as a firm makes its own copy once."""
+    from benchbook.sheets.names import template_path
+    from benchbook.sheets.safeio import atomic_output, load_openpyxl
+    from benchbook.sheets.tables import write_text
+
+    wb = load_openpyxl(template_path("quote"))
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for c in row:
+                if isinstance(c.value, str) and c.value.startswith("[Firm name"):
+                    write_text(c, DEMO_FIRM)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    with atomic_output(path, force=True) as tmp:
+        wb.save(tmp)
+    return path
+
+
 def run_demo(outdir: str | Path, force: bool = False, pdf: Optional[bool] = None) -> DemoResult:
     """Run the whole job on the invented scenario and write every output into ``outdir``.
 
@@ -146,6 +169,7 @@ def run_demo(outdir: str | Path, force: bool = False, pdf: Optional[bool] = None
         if not pdf:
             res.notes.append(f"Quotes were not printed to PDF: LibreOffice is not installed ({office.INSTALL_HINT}).")
     template = template_path("intake")
+    firm = firm_template(out / "templates" / "fernwick-quote-template.xlsx")
     jobs_dir, quotes_dir = out / "jobs", out / "quotes"
     for d in (jobs_dir, quotes_dir, out / "compare"):
         d.mkdir(exist_ok=True)
@@ -157,7 +181,8 @@ def run_demo(outdir: str | Path, force: bool = False, pdf: Optional[bool] = None
         cmp_path = write_comparison(job, evaluated, out / "compare" / f"{name}-options.xlsx", force=force,
                                     profile=profile)
         terms = QuoteTerms(number=f"Q-{DEMO_DATE:%y%m}-{len(res.jobs) + 1:03d}", date=DEMO_DATE)
-        q = write_quote(job, evaluated[0], quotes_dir / f"{name}-quote.xlsx", force=force, pdf=pdf, terms=terms)
+        q = write_quote(job, evaluated[0], quotes_dir / f"{name}-quote.xlsx", template=firm, force=force, pdf=pdf,
+                        terms=terms)
         res.notes += [n for n in q.notes if n not in res.notes]
         res.jobs.append(DemoJob(name, job, evaluated, wb_path, cmp_path, q.path, q.pdf_path, q.totals.grand_total))
 

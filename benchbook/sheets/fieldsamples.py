@@ -213,6 +213,8 @@ def fill_readings(sheet: str | os.PathLike, out: str | os.PathLike, rows: list[d
         # a string total typed into a block cell: the block's reading × the blocks in its string
         ws.cell(head + 3, cols["Float voltage [V]"]).value = round(rows[2]["Float voltage [V]"] * series, 2)
         ws.cell(head + 4, cols["Remarks"]).value = "terminal corrosion, cleaned"
+        if "Temperature [°C]" in cols and len(rows) > 5:  # one temperature read off a °F thermometer
+            ws.cell(head + 6, cols["Temperature [°C]"]).value = round(rows[5]["Temperature [°C]"] * 9 / 5 + 32)
     with atomic_output(out, force=force) as tmp:
         wb.save(tmp)
     return Path(out)
