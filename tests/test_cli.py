@@ -23,12 +23,14 @@ def subcommands() -> list[str]:
 
 
 def test_version():
+    # benchbook's own contract: --version prints "benchbook <version>" and exits 0
     r = run("--version")
     assert r.returncode == 0
     assert r.stdout.strip() == f"benchbook {__version__}"
 
 
 def test_help_lists_every_subcommand():
+    # benchbook's own contract: the top-level help names every subcommand of the parser
     r = run("--help")
     assert r.returncode == 0
     for name in subcommands():
@@ -37,18 +39,22 @@ def test_help_lists_every_subcommand():
 
 @pytest.mark.parametrize("name", subcommands())
 def test_every_subcommand_has_help(name):
+    # benchbook's own contract: every subcommand answers --help with its argparse usage line
     r = run(name, "--help")
     assert r.returncode == 0, r.stderr
     assert r.stdout.startswith("usage: benchbook " + name)
 
 
 def test_no_command_prints_help_and_fails():
+    # benchbook's own contract: no command prints the usage and exits 2
     r = run()
     assert r.returncode == 2
     assert "usage: benchbook" in r.stdout
 
 
 def test_missing_input_is_a_clear_error(tmp_path):
+    # benchbook's own contract (DEVELOPERS.md): a BenchbookError becomes "Error: ..." on stderr and exit 2, with no
+    # traceback
     r = run("size", str(tmp_path / "nope.xlsx"))
     assert r.returncode == 2
     assert r.stderr.startswith("Error: ")
@@ -57,6 +63,7 @@ def test_missing_input_is_a_clear_error(tmp_path):
 
 
 def test_not_a_workbook_is_a_clear_error(tmp_path):
+    # benchbook's own contract (DEVELOPERS.md): a text file saved as .xlsx is named as such, exit 2, no traceback
     p = tmp_path / "loads.xlsx"
     p.write_text("Load,Power [W]\nfridge,80\n")
     r = run("size", str(p))
@@ -66,6 +73,8 @@ def test_not_a_workbook_is_a_clear_error(tmp_path):
 
 
 def test_internal_error_exits_1_without_traceback(monkeypatch, capsys):
+    # benchbook's own contract (DEVELOPERS.md): anything other than a BenchbookError is a bug, exit 1, traceback only
+    # with BENCHBOOK_DEBUG=1
     import benchbook.cli as cli
 
     def boom(args):
@@ -83,6 +92,7 @@ def test_internal_error_exits_1_without_traceback(monkeypatch, capsys):
 
 
 def test_template_check_accepts_the_shipped_templates():
+    # benchbook's own contract: the shipped templates fulfil the template contract (benchbook/sheets/names.py)
     from benchbook.sheets.names import template_path
 
     for kind in ("intake", "quote"):
@@ -92,6 +102,8 @@ def test_template_check_accepts_the_shipped_templates():
 
 
 def test_template_check_lists_every_missing_name(tmp_path):
+    # benchbook's own contract: every missing defined name reported at once, exit 2, and the input file is never
+    # modified
     import hashlib
 
     import openpyxl
@@ -112,6 +124,8 @@ def test_template_check_lists_every_missing_name(tmp_path):
 
 
 def test_input_safety_limits_can_be_overridden_and_are_named(tmp_path):
+    # benchbook's own contract: the input safety limits (sheets/safeio) are named in the error and can be overridden;
+    # a bad option value is reported as "found ...; expected ..."
     from pathlib import Path
 
     sample = Path(__file__).resolve().parents[1] / "samples" / "offgrid-cabin.xlsx"

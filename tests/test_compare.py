@@ -141,7 +141,8 @@ def test_hourly_sheets_row_by_row(tmp_path, records):
 
 # ---- formula injection through real inputs ----------------------------------------------------
 # Text a spreadsheet would take as a formula: "=", "+", "-" and "@" first (OWASP "CSV Injection"; common practice).
-HOSTILE = (("=1+1", "+SUM(A1)", "=IL-12A-100"), ("@x", "-2", "=SUM(1,2)"))
+HOSTILE = (("=1+1", "+SUM(A1)", "=IL-12A-100"), ("@x", "-2", "=SUM(1,2)"),
+           ('=HYPERLINK("http://x","y")', "@SUM(A1)", "=1+1"))
 
 
 def _hostile_files(folder: Path, site: str, client: str, model: str) -> dict:

@@ -99,3 +99,28 @@ def test_readme_rule_of_thumb_figures_are_what_the_models_give():
               "return " + ", ".join(f"{100 * r.cycle.energy:.0f} %" for r in rows[:2])
               + f" and {100 * rows[2].cycle.energy:.0f} %"):
         assert s in text, s
+
+
+def test_readme_cost_figures_are_the_off_grid_samples():
+    """The cost bullet's figures are what `size` gives for samples/offgrid-cabin.xlsx (the demo's cyclic job).
+
+    LCOS after Schmidt et al. 2019, service life by rainflow counting (ASTM E1049-85) and Miner's rule; those
+    are checked against their sources in tests/test_cost.py and tests/test_life.py.
+    """
+    from benchbook.sheets.report import evaluate_job
+
+    job, evaluated = evaluate_job(ROOT / "samples" / "offgrid-cabin.xlsx")
+    by = {e.option.model: e for e in evaluated}
+    agm, gel = by["IL-12A-100"], by["IL-12G-90"]
+    cur = job.economics.currency
+    text = _bullet("- **Cost per delivered kWh, not price per Ah.**")
+    for s in (f"the AGM bank costs {agm.option.price / agm.option.nominal_kwh:.0f} {cur} per nominal kWh",
+              f"the gel bank {gel.option.price / gel.option.nominal_kwh:.0f} {cur}",
+              f"over {job.economics.horizon_years} years",
+              f"the gel bank delivers its energy for {gel.cost_per_kwh:.3f} {cur}/kWh",
+              f"the AGM bank for {agm.cost_per_kwh:.3f} {cur}/kWh",
+              f"wears the AGM bank out in {agm.service_life_years:.1f} years and the gel bank in "
+              f"{gel.service_life_years:.1f}"):
+        assert s in text, s
+    # the bullet says both banks are undersized: true as long as the sample keeps them so
+    assert not agm.option.feasible and not gel.option.feasible

@@ -92,6 +92,8 @@ def problems(path: Path, **kw) -> InputErrorGroup:
 # ---- benchbook new -------------------------------------------------------------------------
 
 def test_new_copies_the_template_and_refuses_to_overwrite(tmp_path):
+    # benchbook's own contract: new copies the shipped template byte for byte, refuses to overwrite without force and
+    # refuses a non-.xlsx name; the template is never modified
     shipped = template_path("intake")
     before = _sha(shipped)
     out = write_blank_job(tmp_path / "a.xlsx")
@@ -107,6 +109,8 @@ def test_new_copies_the_template_and_refuses_to_overwrite(tmp_path):
 
 
 def test_blank_job_names_the_required_cells(tmp_path):
+    # benchbook's own contract: every required name reported at its Sheet!Cell (names.py required flags, DEVELOPERS.md
+    # error format)
     err = problems(write_blank_job(tmp_path / "blank.xlsx"))
     cells = err.cells
     # every required name is reported at its cell, plus the empty load list of a cyclic job... except that
@@ -121,6 +125,8 @@ def test_blank_job_names_the_required_cells(tmp_path):
 # ---- round trips ---------------------------------------------------------------------------
 
 def test_round_trip_minimal_cyclic_job(tmp_path):
+    # benchbook's own contract: values typed at the defined names come back in the Job; daily load 60 × 5 + 100 × 8 Wh
+    # (arithmetic)
     job, catalog = read_job(job_file(tmp_path, BASE, {"Loads": LOADS}))
     assert job == Job(site="Test site", client="Test client", application="cyclic", system_voltage_v=24.0,
                       autonomy_days=2.0, max_dod=0.6, min_temp_c=5.0, design_margin=1.1, aging_factor=1.25,
@@ -131,6 +137,7 @@ def test_round_trip_minimal_cyclic_job(tmp_path):
 
 
 def test_round_trip_every_input(tmp_path):
+    # benchbook's own contract: every name and table read back into the Job; formula-looking text stays text
     values = {**BASE, "job_window_min_v": 21, "job_window_max_v": 31, "job_max_parallel": 3,
               "job_charge_source": "Solar", "job_charger_power_w": 1200, "job_charger_max_a": 40,
               "job_latitude_deg": -33.9,
@@ -183,6 +190,8 @@ def test_charger_maximum_current_is_read_by_its_name(tmp_path):
 
 
 def test_standby_job_takes_its_defaults_from_the_duty_cycle(tmp_path):
+    # benchbook's own contract: a standby job's autonomy is the duty cycle's length, 240 min / 1440 min per day
+    # (arithmetic), with depth and inverter efficiency 1
     job, _ = read_job(job_file(tmp_path, STANDBY, {"DutyCycle": DUTY}))
     assert job.duty_cycle == (DutyPeriod(180.0, 1.0), DutyPeriod(60.0, 238.0), DutyPeriod(120.0, 1.0))
     assert job.autonomy_days == pytest.approx(240 / 1440)  # 1 + 238 + 1 minutes
@@ -193,6 +202,8 @@ def test_standby_job_takes_its_defaults_from_the_duty_cycle(tmp_path):
 # ---- every problem at its cell, all at once ------------------------------------------------
 
 def test_everything_wrong_at_once(tmp_path):
+    # benchbook's own contract: all problems at once, each at its Sheet!Cell with the value found and what was
+    # expected (DEVELOPERS.md); cell addresses are the shipped template's
     values = {**BASE, "job_site": None, "job_system_voltage_v": "forty-eight", "job_max_dod": 50,
               "job_horizon_years": 0, "job_discount_rate": 1.0, "job_energy_price_per_kwh": -0.1,
               "job_install_cost": -5}
@@ -230,6 +241,8 @@ def test_everything_wrong_at_once(tmp_path):
     ("0.8", 0.8, None),              # a number stored as text
 ])
 def test_depth_of_discharge_forms(tmp_path, typed, ok, hint):
+    # benchbook's own contract: the accepted forms of a fraction (names.py kind "fraction"); n % is n / 100
+    # (definition of per cent)
     path = job_file(tmp_path, {**BASE, "job_max_dod": typed}, {"Loads": LOADS})
     if ok is not None:
         assert read_job(path)[0].max_dod == ok
@@ -243,6 +256,7 @@ def test_depth_of_discharge_forms(tmp_path, typed, ok, hint):
 
 
 def test_units_typed_after_numbers_get_a_hint(tmp_path):
+    # benchbook's own contract: hints for a unit typed after the number and for a decimal comma (sheets/tables.py)
     err = problems(job_file(tmp_path, {**BASE, "job_system_voltage_v": "48 V", "job_min_temp_c": "5,5"},
                             {"Loads": LOADS}))
     assert err.cells == ["Job!C12", "Job!C15"]
@@ -251,6 +265,8 @@ def test_units_typed_after_numbers_get_a_hint(tmp_path):
 
 
 def test_missing_and_broken_defined_names(tmp_path):
+    # benchbook's own contract: a missing or #REF! required name is reported against the file; a missing optional name
+    # takes its default
     def edit(wb):
         del wb.defined_names["job_max_dod"]
         wb.defined_names["job_min_temp_c"] = DefinedName("job_min_temp_c", attr_text="#REF!")
@@ -266,6 +282,7 @@ def test_missing_and_broken_defined_names(tmp_path):
 
 
 def test_system_voltage_no_catalog_battery_divides(tmp_path):
+    # benchbook's own contract: message wording and cells; arithmetic: 45 is odd, so no 2, 6 or 12 V block divides it
     # 45 V is an odd number of volts: not a whole number of 2, 6 or 12 V blocks
     err = problems(job_file(tmp_path, {**BASE, "job_system_voltage_v": 45}, {"Loads": LOADS}))
     assert err.cells == ["Job!C12"] + [f"Batteries!C{r}" for r in range(5, 11)]
@@ -275,12 +292,14 @@ def test_system_voltage_no_catalog_battery_divides(tmp_path):
 
 
 def test_system_voltage_some_batteries_divide(tmp_path):
+    # benchbook's own contract: no error while some catalog battery fits (arithmetic in the comment below)
     # 18 V = 9 × 2 V = 3 × 6 V but not a whole number of 12 V blocks: no error, all batteries returned
     job, catalog = read_job(job_file(tmp_path, {**BASE, "job_system_voltage_v": 18}, {"Loads": LOADS}))
     assert job.system_voltage_v == 18.0 and catalog == DEFAULT_CATALOG
 
 
 def test_external_csv_catalog_replaces_the_table(tmp_path):
+    # benchbook's own contract: --catalog replaces the Batteries table; problems in a CSV are named file!C<row>
     twelve = tuple(s for s in DEFAULT_CATALOG if s.block_voltage_v == 12)
     cat = write_catalog_csv(tmp_path / "cat.csv", twelve)
 
@@ -297,12 +316,14 @@ def test_external_csv_catalog_replaces_the_table(tmp_path):
 
 
 def test_standby_needs_a_duty_cycle(tmp_path):
+    # benchbook's own contract: the missing duty cycle is named at its first data cell
     err = problems(job_file(tmp_path, STANDBY))
     assert err.cells == ["Loads!F7"]  # first data cell of table DutyCycle (F6:G18)
     assert "at least one period (Current [A], Minutes) for a standby job" in err.errors[0].message
 
 
 def test_table_cells(tmp_path):
+    # benchbook's own contract: every bad table cell at its Sheet!Cell, with the expected wording of names.py
     months = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
     rows = [[m, 2.0, None] for m in months]
     rows[2][0] = "Apr"      # Month cells must read Jan..Dec in order (first three letters)
@@ -319,12 +340,14 @@ def test_table_cells(tmp_path):
 
 
 def test_solar_job_needs_every_month(tmp_path):
+    # benchbook's own contract: a solar job names each empty month cell
     err = problems(job_file(tmp_path, {**BASE, "job_charge_source": "solar"}, {"Loads": LOADS}))
     assert err.cells == [f"Loads!J{r}" for r in range(7, 19)]
     assert err.errors[0].expected == "a number from 0 to 100000 (a solar job needs all 12 months)"
 
 
 def test_edited_header_and_values_below_a_table(tmp_path):
+    # benchbook's own contract: an edited header and a value typed just below a table are errors at their cells
     def edit(wb):
         ws = wb["Loads"]
         ws["C6"].value = "Power (W)"
@@ -343,6 +366,7 @@ def test_edited_header_and_values_below_a_table(tmp_path):
 
 
 def test_cross_checks_between_cells(tmp_path):
+    # benchbook's own contract: cross-checks between cells, each named at the cell to fix
     values = {**BASE, "job_window_min_v": 30, "job_window_max_v": 20, "job_gen_start_soc": 0.3,
               "job_random_load_a": 25}
     err = problems(job_file(tmp_path, values, {"Loads": LOADS}))
@@ -359,6 +383,8 @@ def test_cross_checks_between_cells(tmp_path):
 # ---- the hourly year -----------------------------------------------------------------------
 
 def test_hourly_text_and_wrong_row_count(tmp_path):
+    # benchbook's own contract: an hourly table needs 365 × 24 = 8760 rows (arithmetic); bad cells named at their
+    # Sheet!Cell
     hourly = [[h + 1, 100.0, 0.0] for h in range(8760)]
     hourly[100][1] = "n/a"   # Hourly!B105 (header in row 4, hour 101 in row 105)
     err = problems(job_file(tmp_path, BASE, {"Loads": LOADS, "Hourly": hourly}))
@@ -379,6 +405,8 @@ def test_hourly_text_and_wrong_row_count(tmp_path):
 
 
 def test_many_bad_hours_are_summed_up(tmp_path):
+    # benchbook's own contract: the first 20 bad cells one by one, then one summary line (50 - 20 = 30 more,
+    # arithmetic)
     hourly = [[h + 1, -1.0 if h < 50 else 1.0, 0.0] for h in range(8760)]
     err = problems(job_file(tmp_path, BASE, {"Loads": LOADS, "Hourly": hourly}))
     assert len(err) == 21  # 20 cells one by one, then one line for the other 30
@@ -389,6 +417,7 @@ def test_many_bad_hours_are_summed_up(tmp_path):
 # ---- files that are not job workbooks ------------------------------------------------------
 
 def test_not_a_workbook(tmp_path):
+    # benchbook's own contract: a text file saved as .xlsx is named as such
     p = tmp_path / "job.xlsx"
     p.write_text("a,b\n1,2\n", encoding="utf-8")
     with pytest.raises(FileFormatError, match="text file"):
@@ -398,6 +427,8 @@ def test_not_a_workbook(tmp_path):
 # ---- the invented samples ------------------------------------------------------------------
 
 def test_offgrid_sample():
+    # benchbook's own contract: the invented sample's inputs as written by make_templates; the daily total is
+    # arithmetic below
     job, catalog = read_job(REPO / "samples" / "offgrid-cabin.xlsx")
     assert (job.application, job.system_voltage_v, job.autonomy_days, job.max_dod, job.min_temp_c) == \
         ("cyclic", 48.0, 3.0, 0.5, -10.0)
@@ -412,6 +443,7 @@ def test_offgrid_sample():
 
 
 def test_telecom_sample():
+    # benchbook's own contract: the invented sample's inputs as written by make_templates
     job, _ = read_job(REPO / "samples" / "telecom-48v.xlsx")
     assert job.application == "standby" and job.system_voltage_v == 48.0
     assert job.duty_cycle == (DutyPeriod(180.0, 1.0), DutyPeriod(60.0, 238.0), DutyPeriod(120.0, 1.0))
@@ -420,6 +452,7 @@ def test_telecom_sample():
 
 
 def test_samples_are_what_the_generator_makes(tmp_path):
+    # benchbook's own contract (DEVELOPERS.md: samples are regenerated by make_templates, byte for byte)
     from benchbook.sheets.make_templates import write_all
 
     write_all(tmp_path)
@@ -433,6 +466,8 @@ def test_samples_are_what_the_generator_makes(tmp_path):
 
 @pytest.mark.office
 def test_libreoffice_keeps_names_tables_and_values(tmp_path):
+    # LibreOffice as a real client: its re-saved file still fulfils benchbook's own template contract and reads the
+    # same
     from office import require_office
 
     require_office()
@@ -450,6 +485,7 @@ def test_libreoffice_keeps_names_tables_and_values(tmp_path):
 
 @pytest.mark.office
 def test_formula_looking_text_stays_text_in_a_real_client(tmp_path):
+    # LibreOffice as a real client: text typed at a name is never evaluated as a formula
     from office import require_office
 
     require_office()
@@ -469,6 +505,7 @@ def test_formula_looking_text_stays_text_in_a_real_client(tmp_path):
 
 
 def test_cli_new_runs_and_refuses_to_overwrite(tmp_path, capsys):
+    # benchbook's own contract (DEVELOPERS.md: bad input is "Error: ..." and exit 2, no traceback)
     from benchbook.cli import main
 
     out = tmp_path / "new.xlsx"
@@ -480,6 +517,8 @@ def test_cli_new_runs_and_refuses_to_overwrite(tmp_path, capsys):
 
 
 def test_hourly_fast_path_and_cell_by_cell_path_agree(tmp_path):
+    # benchbook's own contract: both read paths give the same profile; arithmetic: 50 W in hours 9..23 (15 h) × 365
+    # days
     hourly = [[h + 1, 100.0 + h % 24, 50.0 * (h % 24 > 8)] for h in range(8760)]
     fast = read_job(job_file(tmp_path, BASE, {"Loads": LOADS, "Hourly": hourly}))[0].hourly
     hourly[7][1] = "107"  # a number stored as text leaves the fast path; the value is the same

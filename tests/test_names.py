@@ -65,6 +65,8 @@ def _copy(tmp_path, name="t.xlsx"):
 # ---- the contract as data ------------------------------------------------------------------
 
 def test_brief_names_and_tables_are_in_the_contract():
+    # benchbook's own contract: the fixed intake names and table headers (benchbook/sheets/names.py); 12 months
+    # (calendar) and 8760 = 365 × 24 hours (arithmetic)
     got = {n.name for n in INTAKE.names}
     assert set(BRIEF_NAMES) <= got
     assert len(got) == len(INTAKE.names)  # no name twice
@@ -81,6 +83,7 @@ def test_brief_names_and_tables_are_in_the_contract():
 
 
 def test_charger_maximum_current_name():
+    # benchbook's own contract (names.py NameSpec and the Job dataclass default)
     # optional input in amperes, blank = no limit: the Job default None (the brief's rule for optional names)
     spec = INTAKE.name("job_charger_max_a")
     assert (spec.label, spec.unit, spec.kind, spec.field) == ("Charger maximum current", "A", "number",
@@ -91,6 +94,7 @@ def test_charger_maximum_current_name():
 
 
 def test_every_name_fills_a_real_field_with_its_dataclass_default():
+    # benchbook's own contract: every name maps to a Job / Generator / Economics / DutyPeriod field (names.py)
     # The optional names take the defaults of Job / Generator / Economics (the brief's rule).
     owners = {"generator": Generator, "economics": Economics, "random_load": DutyPeriod}
     for spec in INTAKE.names:
@@ -111,6 +115,7 @@ def test_every_name_fills_a_real_field_with_its_dataclass_default():
 
 
 def test_battery_headers_cover_every_spec_field():
+    # benchbook's own contract: the Batteries table covers every BatterySpec field; header texts are names.py's
     from benchbook.model.battery import spec_fields
 
     covered = {h.field for h in INTAKE.table("Batteries").headers}
@@ -131,6 +136,8 @@ def test_battery_headers_cover_every_spec_field():
     ("job_latitude_deg", "a number from -90 to 90°"),
 ])
 def test_expected_text(name, text):
+    # benchbook's own contract: the "expected" wording of each name, from its names.py range and unit (shown in every
+    # Sheet!Cell error)
     assert expected_text(INTAKE.name(name)) == text
 
 
@@ -145,6 +152,7 @@ def test_header_normalisation_and_closest():
 
 
 def test_contract_lookup_and_template_files():
+    # benchbook's own contract: contract kinds, and the generated contract document lists every name and header
     assert contract("intake") is INTAKE
     with pytest.raises(TemplateError, match="unknown kind of workbook 'nope'"):
         contract("nope")
@@ -159,11 +167,13 @@ def test_contract_lookup_and_template_files():
 # ---- the committed template ----------------------------------------------------------------
 
 def test_committed_template_fulfils_the_contract():
+    # benchbook's own contract: the shipped intake template against names.py
     assert check_template(TEMPLATE, "intake", strict=True) == []
     assert check_template(TEMPLATE, strict=True) == []  # kind detected from its names
 
 
 def test_committed_template_is_what_the_generator_makes():
+    # benchbook's own contract (DEVELOPERS.md: a test fails if the committed template is out of date)
     from benchbook.sheets.make_templates import build_intake_template
 
     fresh = build_intake_template()
@@ -180,12 +190,15 @@ def test_committed_template_is_what_the_generator_makes():
 
 
 def test_generated_files_are_reproducible():
+    # benchbook's own contract (DEVELOPERS.md: make_templates is byte-for-byte reproducible)
     from benchbook.sheets.make_templates import build_intake_template, workbook_bytes
 
     assert workbook_bytes(build_intake_template()) == workbook_bytes(build_intake_template())
 
 
 def test_template_form_is_protected_with_unlocked_inputs_and_blocking_validation():
+    # benchbook's own contract: the template form (sheet protection without a password, input cells unlocked, list
+    # validations); DEVELOPERS.md: fonts always have a name=, DataValidation needs showErrorMessage=True
     wb = openpyxl.load_workbook(TEMPLATE)
     for title in ("Job", "Loads", "Batteries"):
         assert wb[title].protection.sheet is True
@@ -211,6 +224,8 @@ def test_template_form_is_protected_with_unlocked_inputs_and_blocking_validation
 
 
 def test_template_carries_the_safety_caution():
+    # benchbook's own contract (project rule: outputs that guide installation carry safety cautions and defer to local
+    # codes); the words checked name the hazards and the standards cited in the caution (NFPA 70E, IEC 62485-2)
     wb = openpyxl.load_workbook(TEMPLATE)
     text = " ".join(str(c.value) for row in wb["Job"].iter_rows() for c in row if isinstance(c.value, str))
     for word in ("hydrogen", "acid", "thousands of amperes", "NFPA 70E", "Local codes", "IEC 62485-2"):
@@ -228,6 +243,7 @@ def _broken(tmp_path, edit):
 
 
 def test_check_template_reports_a_deleted_name(tmp_path):
+    # benchbook's own contract: check_template's message wording (names.py label) and the input is only read
     path = _broken(tmp_path, lambda wb: wb.defined_names.pop("job_max_dod"))
     before = _sha(path)
     assert check_template(path) == ["defined name job_max_dod (Maximum depth of discharge [%]) is missing; "
@@ -236,6 +252,7 @@ def test_check_template_reports_a_deleted_name(tmp_path):
 
 
 def test_check_template_optional_name_only_in_strict(tmp_path):
+    # benchbook's own contract: optional names are checked in strict mode only
     path = _broken(tmp_path, lambda wb: wb.defined_names.pop("job_window_min_v"))
     assert check_template(path) == []
     assert check_template(path, strict=True) == [
@@ -244,6 +261,7 @@ def test_check_template_optional_name_only_in_strict(tmp_path):
 
 
 def test_check_template_reports_malformed_names(tmp_path):
+    # benchbook's own contract: one message per malformed name, and the Sheet!Cell of a cell two names share
     def edit(wb):
         wb.defined_names["job_max_dod"] = DefinedName("job_max_dod", attr_text="#REF!")
         wb.defined_names["job_min_temp_c"] = DefinedName("job_min_temp_c", attr_text="Job!$C$15:$C$17")
@@ -270,6 +288,8 @@ def test_check_template_reports_malformed_names(tmp_path):
 
 
 def test_check_template_reports_an_edited_header_with_suggestion(tmp_path):
+    # benchbook's own contract: table header messages at Sheet!Cell (DEVELOPERS.md), suggestion by difflib (reference
+    # library)
     def edit(wb):
         ws = wb["Loads"]
         ws["C6"].value = "Power (W)"
@@ -285,6 +305,8 @@ def test_check_template_reports_an_edited_header_with_suggestion(tmp_path):
 
 
 def test_check_template_reports_missing_table_and_wrong_row_count(tmp_path):
+    # benchbook's own contract: a missing table and a table of the wrong size (ChargeByMonth holds 12 months; I6:K16
+    # is 10 data rows, arithmetic)
     def edit(wb):
         del wb["Loads"].tables["DutyCycle"]
         wb["Loads"].tables["ChargeByMonth"].ref = "I6:K16"
@@ -295,6 +317,7 @@ def test_check_template_reports_missing_table_and_wrong_row_count(tmp_path):
 
 
 def test_check_template_on_workbook_object_equals_on_path(tmp_path):
+    # benchbook's own contract: a path and an openpyxl workbook give the same messages
     def edit(wb):
         wb.defined_names.pop("job_client")
         wb["Batteries"]["F4"].value = "15 min rate (Ah)"
@@ -329,6 +352,7 @@ _VOLT = INTAKE.name("job_system_voltage_v")
 @settings(max_examples=60, deadline=None)
 @given(st.floats(min_value=0, max_value=1, exclude_min=True))
 def test_fraction_in_range_is_taken_as_is(x):
+    # benchbook's own contract: job_max_dod is a fraction in (0, 1] (names.py kind "fraction")
     assert coerce(_DOD, x) == (x, None)
 
 
@@ -344,7 +368,7 @@ def test_percentage_typed_as_a_number_is_refused_with_the_fraction(n):
 @settings(max_examples=60, deadline=None)
 @given(st.floats(min_value=2, max_value=1000))
 def test_number_stored_as_text_reads_as_the_number(x):
-    # Python's repr of a float round-trips exactly (IEEE 754 shortest repr, PEP 3101 / Python docs)
+    # Python's repr of a float round-trips exactly (shortest repr since Python 3.1, What's New in Python 3.1)
     assert coerce(_VOLT, repr(x)) == (x, None)
     assert coerce(_VOLT, x) == (x, None)
 
@@ -352,4 +376,5 @@ def test_number_stored_as_text_reads_as_the_number(x):
 @settings(max_examples=40, deadline=None)
 @given(st.floats(allow_nan=False, allow_infinity=False).filter(lambda v: not 2 <= v <= 1000))
 def test_number_out_of_range_is_refused(x):
+    # benchbook's own contract: job_system_voltage_v accepts 2 to 1000 V (names.py range)
     assert coerce(_VOLT, x) == (None, "a number from 2 to 1000 V")

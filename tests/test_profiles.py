@@ -58,10 +58,13 @@ def test_day_length_limits():
     assert day_length_h(70.0, 172) == pytest.approx(24.0)
     assert day_length_h(70.0, 355) == pytest.approx(0.0)
     # hemispheres mirror each other
+    # (arithmetic on the sunset formula: tan(-φ) = -tan φ, so ω_s(-φ) = 180° - ω_s(φ))
     assert day_length_h(-40.0, 172) == pytest.approx(24.0 - day_length_h(40.0, 172))
 
 
 def test_solar_profile_keeps_each_days_energy_and_half_sine_shape():
+    # 365 × 24 = 8760 h (arithmetic); each day holds its month's kWh/day (the profile's definition, benchbook's own
+    # contract); the hourly half-sine is checked against scipy's quad below
     p = solar_profile_w(MONTHLY_KWH, 46.0)
     assert p.shape == (HOURS_PER_YEAR,)
     daily = p.reshape(365, 24).sum(axis=1) / 1000.0
@@ -77,11 +80,15 @@ def test_solar_profile_keeps_each_days_energy_and_half_sine_shape():
         ref = quad(lambda t: peak * math.sin(math.pi * (t - tr) / n_h), a, b)[0] if b > a else 0.0
         assert day[h] == pytest.approx(ref, abs=1e-9)
     assert day[11] == pytest.approx(day[12])  # symmetric about solar noon
+    # arithmetic with the sunset formula (Duffie & Beckman, from memory): about 15.6 h of day at 46° N on day 172, so
+    # the hours around midnight are dark
     assert day[0] == 0.0 and day[23] == 0.0
 
 
 def test_solar_profile_errors():
     with pytest.raises(ModelError, match="no daylight"):
+        # benchbook's own contract (ModelError messages); 75° N in December: -tan φ tan δ ≈ 1.6 > 1, no sunrise
+        # (sunset hour angle formula, Duffie & Beckman ch. 1.6, from memory)
         solar_profile_w(MONTHLY_KWH, 75.0)  # polar night in December with energy asked for
     with pytest.raises(ModelError, match="12"):
         solar_profile_w(MONTHLY_KWH[:11], 40.0)
@@ -97,6 +104,7 @@ def test_load_profile_spreads_by_the_daily_shape():
     assert day.sum() == pytest.approx(1812.5)
     assert np.allclose(p.reshape(365, 24), day)
     # the 2.5 h load runs in the two top-ranked hours (19-20, 18-19) and half of the third (20-21)
+    # (benchbook's own DAILY_SHAPE, common practice, no source; the figures below are arithmetic on it)
     order = np.argsort(-np.asarray(DAILY_SHAPE), kind="stable")
     assert list(order[:3]) == [19, 18, 20]
     assert day[19] == pytest.approx((50 + 100) / 0.8) and day[18] == pytest.approx((50 + 100) / 0.8)
@@ -108,6 +116,8 @@ def test_load_profile_spreads_by_the_daily_shape():
 
 
 def test_temperature_profile():
+    # arithmetic on the calendar: 365 × 24 = 8760 h; January has 31 days, so index 31 × 24 is February's first hour; a
+    # constant is broadcast (benchbook's own contract)
     t = temperature_profile_c(tuple(range(12)))
     assert t.shape == (HOURS_PER_YEAR,)
     assert t[0] == 0 and t[31 * 24 - 1] == 0 and t[31 * 24] == 1 and t[-1] == 11
@@ -116,6 +126,9 @@ def test_temperature_profile():
 
 def test_job_profile_sources():
     job = _job()
+    # arithmetic: the year's load is 365 × the daily DC energy and the year's solar energy is Σ kWh/day × days of each
+    # month; grid at the charger power, nothing from a generator-only source, an hourly profile used as given and the
+    # error messages are benchbook's own contract (model/profiles.job_profile)
     p = job_profile(job)
     assert p.steps == HOURS_PER_YEAR and p.step_h == 1.0 and p.source == "solar"
     assert p.load_w.sum() == pytest.approx(365 * job.daily_dc_wh)
@@ -133,6 +146,8 @@ def test_job_profile_sources():
 
 
 def test_profile_validation():
+    # benchbook's own contract (Profile checks): 24 h / (7/60 h) = 205.7 steps is not whole (arithmetic); negative
+    # power and arrays of different lengths are refused
     Profile([1.0] * 48, [0.0] * 48, 20.0, 0.5)  # a temperature constant is broadcast
     with pytest.raises(ModelError, match="whole number"):
         Profile([1.0] * 10, [0.0] * 10, [20.0] * 10, 7 / 60)

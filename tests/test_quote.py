@@ -87,6 +87,7 @@ def test_bom_quantities_follow_the_arrangement():
     assert lines["String fuses"].quantity == 3
     assert lines["Bus bars"].quantity == 1
     assert lines["Racks"].quantity == 1  # 12 x 30 kg = 360 kg on one 700 kg rack
+    # benchbook's own BomAllowances defaults, no external source: labour 6 h + 0.4 h per block, racks rated 700 kg
     assert lines["Labour"].quantity == pytest.approx(6 + 0.4 * 12)
     single = {l.item for l in bill_of_materials(spec, 4, 1)}
     assert "Bus bars" not in single
@@ -127,6 +128,7 @@ def test_quote_totals_arithmetic():
 
 
 def test_bom_rejects_bad_input():
+    # benchbook's own contract: bad arguments refused, every bad allowance field named at once
     with pytest.raises(ModelError, match="series"):
         bill_of_materials(SPECS["IL-12A-100"], 0, 1)
     with pytest.raises(SpecError) as e:
@@ -137,6 +139,7 @@ def test_bom_rejects_bad_input():
 # ---- the template --------------------------------------------------------------------------
 
 def test_shipped_template_fulfils_the_contract_and_is_current(tmp_path):
+    # benchbook's own contract: the shipped quote template fulfils names.py and equals a fresh build
     assert check_template(TEMPLATE, "quote", strict=True) == []
     fresh = tmp_path / "fresh.xlsx"
     build_quote_template().save(fresh)
@@ -155,6 +158,8 @@ def _cell(wb, name: str):
 
 
 def test_quote_fills_every_name(tmp_path, options):
+    # benchbook's own contract: each quote name gets its value from quote_values; quote valid 45 days from 2026-03-02
+    # is 2026-04-16 (calendar arithmetic)
     job = make_job()
     rec = make_record(option_with(options, 4, 3))
     res = write_quote(job, rec, tmp_path / "q.xlsx", terms=TERMS)
@@ -190,6 +195,7 @@ def test_quote_fills_every_name(tmp_path, options):
 
 
 def test_bom_table_values_and_formulas(tmp_path, options):
+    # benchbook's own contract: each BOM line in the QuoteItems table, line total Qty × Unit price, unused rows hidden
     rec = make_record(option_with(options, 4, 3))
     res = write_quote(make_job(), rec, tmp_path / "q.xlsx", terms=TERMS)
     wb = openpyxl.load_workbook(res.path)
@@ -233,6 +239,8 @@ def test_user_text_is_written_as_text_never_a_formula(tmp_path, options, text):
 
 
 def test_outputs_are_atomic_and_inputs_untouched(tmp_path, options):
+    # benchbook's own contract (DEVELOPERS.md: atomic outputs, refuse to overwrite without force, inputs never
+    # modified)
     out = tmp_path / "q.xlsx"
     before = hashlib.sha256(TEMPLATE.read_bytes()).hexdigest()
     rec = make_record(option_with(options, 4, 2))
@@ -255,6 +263,7 @@ def test_outputs_are_atomic_and_inputs_untouched(tmp_path, options):
 
 
 def test_paper_and_header_footer(tmp_path, options):
+    # benchbook's own contract: the chosen paper size and the header text (site and quote date)
     job = make_job(site="Hut & Shed (invented)")
     res = write_quote(job, make_record(option_with(options, 4, 2)), tmp_path / "q.xlsx", paper="Letter",
                       terms=TERMS)
@@ -269,6 +278,8 @@ def test_paper_and_header_footer(tmp_path, options):
 
 
 def test_template_areas_and_table_room_are_checked(tmp_path):
+    # benchbook's own contract: a firm's template too small for the arrangement or the BOM is reported, all problems
+    # at once
     wb = openpyxl.load_workbook(TEMPLATE)
     wb.defined_names["quote_arrangement_last"].attr_text = "'Arrangement'!$D$20"  # only 3 columns wide
     tab = wb["Quote"].tables["QuoteItems"]
@@ -285,6 +296,7 @@ def test_template_areas_and_table_room_are_checked(tmp_path):
 
 
 def test_template_missing_names_lists_every_problem(tmp_path, options):
+    # benchbook's own contract: every missing name and retyped header in one TemplateError, and no output written
     wb = openpyxl.load_workbook(TEMPLATE)
     del wb.defined_names["quote_site"]
     del wb.defined_names["quote_grand_total"]
@@ -339,6 +351,8 @@ def move_and_restyle(src: Path, dst: Path, drow: int = 3, dcol: int = 2, title: 
 
 
 def test_restyled_and_moved_template_is_filled_by_name(tmp_path, options):
+    # benchbook's own contract: filled by defined names, never by address; the grand total is checked with the
+    # formulas package below
     moved = tmp_path / "firm.xlsx"
     move_and_restyle(TEMPLATE, moved)
     assert check_template(moved, "quote") == []
@@ -377,6 +391,7 @@ def test_restyled_and_moved_template_is_filled_by_name(tmp_path, options):
 
 
 def test_standby_quote_from_the_real_pipeline(tmp_path):
+    # benchbook's own contract: the quote shows the pipeline's own figures; arithmetic: series × block voltage = 48 V
     from benchbook.model.evaluate import evaluate_options
     from benchbook.model.job import DutyPeriod
 
@@ -402,6 +417,8 @@ def _arrangement(wb):
 
 
 def test_arrangement_8_strings_of_24_blocks(tmp_path, options):
+    # benchbook's own contract: the arrangement drawing (one labelled row per string, blocks numbered 1..24, then the
+    # fuse F)
     opt = option_with(options, 24, 8, model="IL-2F-420")
     res = write_quote(make_job(), make_record(opt), tmp_path / "q.xlsx", terms=TERMS)
     wb = openpyxl.load_workbook(res.path)
@@ -417,6 +434,8 @@ def test_arrangement_8_strings_of_24_blocks(tmp_path, options):
 
 
 def test_arrangement_wraps_long_strings_and_says_what_is_not_drawn(tmp_path, options):
+    # benchbook's own contract: a string longer than 24 blocks wraps (80 blocks over 4 rows of 24, arithmetic) and
+    # undrawn strings are named
     opt = option_with(options, 80, 8, model="IL-2F-420")  # 160 V of 2 V cells: 4 rows of 24 per string
     res = write_quote(make_job(), make_record(opt), tmp_path / "q.xlsx", terms=TERMS)
     wb = openpyxl.load_workbook(res.path)

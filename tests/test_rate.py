@@ -120,6 +120,8 @@ def test_max_charge_current_fills_q1_to_c_qmax():
 
 
 def test_kibam_validation_names_every_bad_field():
+    # benchbook's own contract: every bad field named at once (c is a fraction and k a rate constant by their M&M 1993
+    # definitions); a zero-length step has no maximum current
     with pytest.raises(SpecError) as e:
         Kibam(c=1.2, k_per_h=-1.0, q_max_ah=float("nan"))
     assert [p.field for p in e.value.problems] == ["c", "k_per_h", "q_max_ah"]
@@ -195,6 +197,8 @@ def test_fit_with_sub_hour_rows_is_worse_and_min_hours_filters():
 
 
 def test_fit_needs_three_ratings():
+    # KiBaM has three parameters (c, k, q_max; M&M 1993), so a fit needs three ratings; a negative capacity is refused
+    # (benchbook's own contract)
     with pytest.raises(SpecError) as e:
         fit_kibam([(10, 100.0), (20, 110.0)])
     assert "3 or more" in str(e.value)
@@ -229,6 +233,8 @@ def test_peukert_hours_arrays_and_limits():
     t = peukert_hours(cur, 100.0, 20.0, 1.2)
     # t = H (C / (I H))^k by hand: 20 * 2^1.2, 20, 20 * 0.5^1.2
     assert t[:3] == pytest.approx([20 * 2 ** 1.2, 20.0, 20 * 0.5 ** 1.2], rel=1e-12)
+    # zero or charging current never empties the battery: infinite runtime (benchbook's own convention); bad arguments
+    # are named at once (benchbook's own contract); one rating cannot fit an exponent (Peukert 1897 needs two)
     assert np.all(np.isinf(t[3:]))
     with pytest.raises(SpecError) as e:
         peukert_hours(5.0, -100.0, 0.0, 1.2)
@@ -313,6 +319,7 @@ def test_bank_tiny_load_is_flagged_out_of_table():
 
 
 def test_bank_reports_every_bad_argument():
+    # benchbook's own contract: every bad argument named at once; power and current are exclusive
     spec = _BY["IL-12A-100"]
     with pytest.raises(SpecError) as e:
         bank_at_load(spec, 0, 1.5, load_w=-5.0, rest_h=-1.0)

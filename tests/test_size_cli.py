@@ -155,3 +155,19 @@ def test_the_text_report_shows_the_same_figures(tmp_path, sized):
         assert heading in out, heading
     # the largest duty-cycle current of the telecom sample is 180 A (samples/telecom-48v.xlsx DutyCycle)
     assert "constant 180.0 A, the largest duty-cycle current" in out
+
+
+@pytest.mark.parametrize("key, field", [("price", "price"), ("weight", "weight_kg"), ("unserved", "unserved_kwh")])
+def test_rank_by_orders_feasible_options_first(key, field):
+    # the estimator's other rankings (issue contract): options that meet the requirement first, each group in
+    # ascending order of the chosen figure (arithmetic on the JSON's own figures; common practice, no source)
+    job = Path(__file__).resolve().parents[1] / "samples" / "telecom-48v.xlsx"
+    r = run("size", str(job), "--json", "--rank-by", key)
+    assert r.returncode == 0, r.stderr
+    recs = json.loads(r.stdout)
+    assert [rec["rank"] for rec in recs] == list(range(1, len(recs) + 1))
+    feasible = [rec["feasible"] for rec in recs]
+    assert feasible == sorted(feasible, reverse=True)
+    for group in (True, False):
+        vals = [rec[field] for rec in recs if rec["feasible"] is group]
+        assert vals == sorted(vals), (key, vals)

@@ -108,6 +108,8 @@ def test_random_load_goes_on_the_largest_section_only():
 
 
 def test_duty_cycle_reports_every_bad_period():
+    # benchbook's own contract: every bad period named at once (DEVELOPERS.md, all problems reported together); a
+    # design margin below 1 would shrink the cell and a negative K_t is meaningless (common practice, no source)
     with pytest.raises(ModelError) as ei:
         duty_cycle_size([(10.0, 5.0), (-3.0, 10.0), (4.0, 0.0), ("x", 1)], linear_kt)
     text = str(ei.value)
@@ -184,10 +186,14 @@ def test_autonomy_uses_the_kibam_capacity_at_the_string_current():
         i = step.string_current_a
         t_ref = brentq(lambda t: _mm_capacity(kb.q_max_ah, kb.c, kb.k_per_h, t) - i * t, 1e-6, 1e6, xtol=1e-12)
         assert step.runtime_h == pytest.approx(t_ref, rel=1e-8)
+        # 108 Ah is the catalog's 100 h rating of IL-12A-100: benchbook's own cap (see
+        # test_capacity_is_capped_at_the_longest_rate)
         assert step.string_capacity_ah == pytest.approx(min(i * t_ref, 108.0), rel=1e-8)
     # lower current per string → more charge per string: the parallel gain is above 1 and grows with P
+    # (KiBaM, Manwell & McGowan 1993: more of the bound charge comes out at lower current)
     gains = [s.parallel_gain for s in r.steps]
     assert gains[0] == 1.0 and all(b > a for a, b in zip(gains, gains[1:]))
+    # benchbook's own contract: the chosen P is the first step that is enough; runtimes beyond the table are flagged
     assert r.parallel == next(s.parallel for s in r.steps if s.enough)
     # slower than the table's 100 h → flagged as extrapolated
     assert [s.extrapolated for s in r.steps] == [s.runtime_h > 100.0 for s in r.steps]
@@ -244,6 +250,8 @@ def standby_job(**kw):
 def test_cyclic_options_equal_the_scalar_autonomy_sizing():
     job = cyclic_job()
     opts = enumerate_options(job)
+    # benchbook's own contract: all six catalog classes divide 48 V; options come ranked by price (the default
+    # rank_by)
     assert len(opts) == 6 and all(isinstance(o, BankOption) for o in opts)
     tf = 1.19  # IEEE 485 Table 1 at 10 °C / 50 °F (from memory; also in published PV worksheets)
     for o in opts:
@@ -284,6 +292,9 @@ def test_rank_by_hook_and_feasible_first():
 
 
 def test_flags_parallel_unreachable_and_end_voltage():
+    # benchbook's own contract (flag texts of model/options.py). The string counts follow from autonomy_size on the
+    # catalog data (checked against the worksheet above), not an independent source; the catalog's rate tables are to
+    # 1.75 V/cell, so a job asking 1.80 V/cell is flagged as differing
     opts = {o.model: o for o in enumerate_options(cyclic_job(end_voltage_per_cell_v=1.80), max_parallel=4)}
     agm = opts["IL-12A-100"]
     assert agm.parallel == 4 and not agm.feasible
@@ -303,8 +314,8 @@ def test_flag_voltage_window():
     assert not opts["IL-6F-225"].feasible
     assert any("absorption voltage 58.8 V above the window maximum 58 V" in f for f in opts["IL-6F-225"].flags)
     assert opts["IL-12A-100"].feasible
-    # At 10 °C the charger compensates by −3 mV/°C/cell (IEEE 1188 temperature-compensated charging;
-    # the catalog's datasheet value): 2.40 + 0.003 × 15 = 2.445 V/cell, × 24 = 58.68 V > 58 V.
+    # At 10 °C the charger compensates by −3 mV/°C/cell (temperature-compensated charging, common practice,
+    # IEEE 1188 from memory; −3 is the catalog's datasheet value): 2.40 + 0.003 × 15 = 2.445 V/cell, × 24 = 58.68 V.
     opts = {o.model: o for o in enumerate_options(cyclic_job(window_min_v=40.0, window_max_v=58.0,
                                                              min_temp_c=10.0))}
     assert not opts["IL-12A-100"].feasible
@@ -408,6 +419,9 @@ def test_more_strings_never_deliver_less(params, current, ceiling_frac, pmax):
 @given(wh=st.floats(200.0, 20000.0), days=st.floats(0.5, 5.0), dod=st.floats(0.2, 1.0),
        volts=st.sampled_from([12, 24, 48]), pmax=st.integers(1, 6), temp=st.floats(-3.0, 40.0))
 def test_vectorised_options_equal_scalar_sizing(wh, days, dod, volts, pmax, temp):
+    # reference: benchbook's scalar autonomy_size (itself checked against the IEEE 1013-structure worksheet and
+    # Manwell & McGowan 1993 above); the vectorised enumeration must equal it (DEVELOPERS.md property tests; no
+    # external source)
     job = cyclic_job(loads=(Load("load", wh, 1.0),), autonomy_days=days, max_dod=dod, system_voltage_v=volts,
                      min_temp_c=temp, max_parallel=pmax)
     for o in enumerate_options(job):

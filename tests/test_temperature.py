@@ -84,6 +84,7 @@ def test_capacity_fraction_is_reciprocal():
 
 
 def test_bad_temperature():
+    # benchbook's own contract: a NaN temperature is a SpecError naming the field temp_c
     with pytest.raises(SpecError) as e:
         ieee485_factor(float("nan"))
     assert e.value.problems[0].field == "temp_c"
@@ -93,6 +94,8 @@ def test_bad_temperature():
 def test_iec_lambda_sides_of_boundary():
     # IEC 60896-11 (vendor summary): 0.006 /°C for long discharges, 0.01 /°C for 1-3 h
     assert iec60896_lambda(10.0) == 0.006
+    # the 3 h boundary and which side takes it are benchbook's explicit convention (docs/references.md: boundary not
+    # confirmed), hence the boundary_h parameter
     assert iec60896_lambda(3.0) == 0.006      # the boundary itself takes 0.006
     assert iec60896_lambda(2.99) == 0.01
     assert iec60896_lambda(1.0) == 0.01
@@ -117,6 +120,7 @@ def test_iec_direction():
 
 
 def test_iec_bad_input_reports_everything():
+    # benchbook's own contract: every bad argument named at once, in order
     with pytest.raises(SpecError) as e:
         iec60896_capacity_25c(-1.0, float("inf"), 0.0, boundary_h=-2.0)
     assert [p.field for p in e.value.problems] == ["measured_ah", "temp_c", "discharge_hours", "boundary_h"]
