@@ -347,3 +347,42 @@ def test_an_option_with_no_cost_figure_shows_n_a_and_why(tmp_path, records):
     assert ws.cell(rows[labels["capex"]], 3).value == pytest.approx(recs[1].capex)
     assert str(ws.cell(rows[labels["blocks"]], 3).value).startswith("=")
     assert note in ws.cell(rows[labels["flags"]], 3).value
+
+
+def test_best_marks_fall_on_the_best_feasible_option(tmp_path):
+    # The green mark of a row goes to the best value among the options that meet the requirement (benchbook's
+    # contract, README "Project manager"). Each conditional-format rule is evaluated here by hand on the values
+    # written (ECMA-376 Part 1, 18.3.1.10: a cfRule of type "expression" formats its cell where it is TRUE).
+    from benchbook.sheets.report import evaluate_job
+
+    job, evaluated = evaluate_job(Path(__file__).resolve().parents[1] / "samples" / "telecom-48v.xlsx")
+    out = write_comparison(job, evaluated, tmp_path / "c.xlsx", hourly=False)
+    ws = openpyxl.load_workbook(out)["Summary"]
+    feasible_cols = {2 + j for j, e in enumerate(evaluated) if e.option.feasible}
+    assert 2 <= len(feasible_cols) < len(evaluated)  # per-cell rules: some options miss the requirement
+    marked: dict[int, set[int]] = {}
+    rows_with_rules: dict[int, set[int]] = {}
+    for rng in ws.conditional_formatting:
+        cell = next(iter(rng.sqref.ranges))
+        assert cell.min_col == cell.max_col and cell.min_row == cell.max_row  # one rule per cell
+        row, col = cell.min_row, cell.min_col
+        rows_with_rules.setdefault(row, set()).add(col)
+        (rule,) = rng.rules
+        f = rule.formula[0]
+        span = {openpyxl.utils.column_index_from_string(c)
+                for c in re.findall(r"\$([A-Z]+)\$%d" % row, f)}
+        assert span == feasible_cols, f  # only options that meet the requirement compete
+        vals = {c: ws.cell(row, c).value for c in span}
+        if any(not isinstance(v, (int, float)) for v in vals.values()):
+            continue  # a formula row: its values exist only after recalculation
+        ext = max if "=MAX(" in f.split(",")[0] else min
+        if ws.cell(row, col).value == ext(vals.values()) and max(vals.values()) != min(vals.values()):
+            marked.setdefault(row, set()).add(col)
+    assert all(cols == feasible_cols for cols in rows_with_rules.values())
+    labels = {ws.cell(r, 1).value: r for r in marked}
+    # the telecom sample's figures (size --json): the 2 V cells last longest and the 6 V bank is cheapest
+    life = labels["Service life [years]"]
+    assert marked[life] == {c for c in feasible_cols if ws.cell(life, c).value == 20.0}
+    capex = labels[next(k for k in labels if k.startswith("Capital cost"))]
+    assert marked[capex] == {min(feasible_cols, key=lambda c: ws.cell(capex, c).value)}
+    assert len(marked) >= 5

@@ -34,12 +34,51 @@ def test_demo_writes_the_whole_job(demo):
                 "field/DC-A-capacity-test.xlsx", "field/DC-A-readings.xlsx",
                 "field/filled/DC-A-capacity-test-2026-03.xlsx", "field/filled/DC-A-readings-2026-03.xlsx",
                 "field/checked/fleet-summary.xlsx"]
-    for rel in expected:
+    for rel in expected:  # the list of outputs (benchbook's own contract)
         assert (out / rel).is_file(), rel
         assert rel in r.stdout or Path(rel).name in r.stdout or rel.startswith("field/checked/")
     assert len(list((out / "field" / "checked").glob("*.checked.xlsx"))) == 2
     assert "Larchmoor upland research hut" in r.stdout and "Brindle Hill relay shelter" in r.stdout
+    # every output that guides installation or maintenance defers to local codes (common practice, no source)
     assert "local codes" in r.stdout.lower() or "licensed practice" in r.stdout
+
+
+def test_headline_numbers_are_the_comparison_workbooks(demo):
+    # the printed headline of each job is the #1 column of its comparison workbook (benchbook's own contract:
+    # the demo prints what it wrote); read back with python-calamine, an independent reader
+    out, r = demo
+    for name, site in (("offgrid-larchmoor", "Larchmoor upland research hut"),
+                       ("standby-brindle-hill", "Brindle Hill relay shelter")):
+        rows = CalamineWorkbook.from_path(str(out / "compare" / f"{name}-options.xlsx")) \
+            .get_sheet_by_name("Summary").to_python()
+        col = {str(row[0]): row[1] for row in rows if row and row[0]}
+        block = r.stdout[r.stdout.index(site):]
+        block = block[:block.index("quote grand total")]
+        assert f"recommended #1: {col['Battery']} {int(col['Blocks in series per string [-]'])} x " \
+               f"{int(col['Parallel strings [-]'])}" in block
+        assert f"usable {float(col['Usable energy, design rate and min. temperature [kWh]']):.1f} kWh" in block
+        assert f"round-trip efficiency {float(col['Round-trip efficiency [%]']):.1%}" in block
+        assert f"service life {float(col['Service life [years]']):.1f} years" in block
+
+
+def test_demo_prints_the_quotes_to_pdf_with_libreoffice(tmp_path):
+    # with LibreOffice present the demo prints each quote to PDF (the contract); pdftotext reads the
+    # grand total back from the printed page (poppler, an independent reader)
+    from office import require_office  # tests/office.py
+
+    require_office(pdf_tools=True)
+    out = tmp_path / "demo-pdf"
+    r = subprocess.run([sys.executable, "-m", "benchbook", "demo", str(out)], capture_output=True, text=True,
+                       timeout=900)
+    assert r.returncode == 0, r.stderr
+    for name in ("offgrid-larchmoor", "standby-brindle-hill"):
+        pdf = out / "quotes" / f"{name}-quote.pdf"
+        assert pdf.is_file() and pdf.read_bytes().startswith(b"%PDF")
+        assert f"quotes/{name}-quote.pdf" in r.stdout
+        text = subprocess.run(["pdftotext", "-layout", str(pdf), "-"], capture_output=True, text=True,
+                              timeout=120).stdout
+        assert "Battery bank quotation" in text and "Grand total" in text
+    assert "Quotes were not printed to PDF" not in r.stdout
 
 
 def test_quotes_carry_the_invented_firms_letterhead(demo):

@@ -378,3 +378,32 @@ def test_number_stored_as_text_reads_as_the_number(x):
 def test_number_out_of_range_is_refused(x):
     # benchbook's own contract: job_system_voltage_v accepts 2 to 1000 V (names.py range)
     assert coerce(_VOLT, x) == (None, "a number from 2 to 1000 V")
+
+
+def test_every_input_has_its_range_and_the_hourly_sheet_is_locked_but_its_inputs():
+    # benchbook's own contract (names.py): every number, fraction and integer input carries a blocking validation
+    # with the contract's range; every sheet is protected with only its input cells unlocked (openpyxl docs:
+    # DataValidation needs showErrorMessage=True to block an entry)
+    from openpyxl.worksheet.cell_range import CellRange
+
+    wb = openpyxl.load_workbook(TEMPLATE)
+    for spec in INTAKE.names:
+        if spec.kind not in ("number", "integer", "fraction"):
+            continue
+        sheet, cell = re.fullmatch(r"(\w+)!\$([A-Z]+\$\d+)", wb.defined_names[spec.name].attr_text).groups()
+        cell = cell.replace("$", "")
+        dvs = [dv for dv in wb[sheet].data_validations.dataValidation
+               if any(cell in CellRange(str(r)) for r in dv.sqref.ranges)]
+        assert len(dvs) == 1, spec.name
+        dv = dvs[0]
+        assert dv.showErrorMessage and dv.type == ("whole" if spec.kind == "integer" else "decimal"), spec.name
+        lo = spec.low if spec.low is not None else -1e12
+        hi = spec.high if spec.high is not None else 1e12
+        assert (float(dv.formula1), float(dv.formula2)) == (lo, hi), spec.name
+    ws = wb["Hourly"]
+    assert ws.protection.sheet is True and ws.protection.password is None
+    assert ws["B5"].protection.locked is False and ws["C8764"].protection.locked is False
+    assert ws["A5"].protection.locked is True and ws["B4"].protection.locked is True  # hour numbers, headers
+    ranges = {str(dv.sqref): (dv.type, float(dv.formula1), float(dv.formula2), dv.showErrorMessage)
+              for dv in ws.data_validations.dataValidation}
+    assert ranges == {"B5:B8764": ("decimal", 0.0, 1e8, True), "C5:C8764": ("decimal", 0.0, 1e8, True)}

@@ -19,7 +19,7 @@ from benchbook.model.job import DutyPeriod, Economics, Generator, HourlyProfile,
 from benchbook.sheets.catalog import CatalogEntry, entries_from_book, read_catalog_entries
 from benchbook.sheets.names import HOURS_PER_YEAR, INTAKE, MONTHS, NameSpec, TableSpec, template_bytes
 from benchbook.sheets.safeio import atomic_output, report_reader_notes
-from benchbook.sheets.tables import Book, CellRef, Found, as_typed, coerce, find_table, is_blank, match_headers
+from benchbook.sheets.tables import Book, CellRef, Found, a1, as_typed, coerce, find_table, is_blank, match_headers
 
 #: Problems reported cell by cell for one table before the rest are summed up in one line.
 MAX_PROBLEMS_PER_TABLE = 20
@@ -102,6 +102,8 @@ class _Reader:
             return
         raw = self.book.value(t.cell)
         if is_blank(raw):
+            if self._blank_in_merge(spec, t.cell, application):
+                return
             if spec.is_required(application):
                 extra = f" (required for {spec.only_for} jobs)" if spec.only_for else " (required)"
                 self.add(t.cell, raw, spec.expected + extra, what)
@@ -114,6 +116,30 @@ class _Reader:
             return
         self.values[spec.name] = value
         self.filled.add(spec.name)
+
+    def _blank_in_merge(self, spec: NameSpec, cell: CellRef, application: Optional[str]) -> bool:
+        """Report a blank named cell under a merged range (True when reported).
+
+        A merge keeps only its first (top-left) cell's value, so a named cell
+        merged over reads blank even when the merged block shows a value.
+        """
+        merged = _merged_over(self.book, cell)
+        if merged is None:
+            return False
+        r1, c1, r2, c2 = merged
+        rng, first = f"{a1(c1, r1)}:{a1(c2, r2)}", CellRef(cell.sheet, r1, c1)
+        shown = self.book.value(first) if first != cell else None
+        if is_blank(shown) and not spec.is_required(application):
+            return False
+        found = f"an empty cell merged with others ({rng})"
+        if not is_blank(shown):
+            text = f'"{shown}"' if isinstance(shown, str) else f"{as_typed(shown)}"
+            found += f"; the value shown, {text}, is in {first.cell}"
+        extra = " (required)" if spec.is_required(application) else ""
+        self.add(cell, Found(found), f"{spec.expected}{extra} typed in {cell.cell} itself: unmerge {rng}",
+                 spec.caption)
+        self.bad.add(spec.name)
+        return True
 
     def good(self, name: str) -> bool:
         return name not in self.bad
@@ -203,6 +229,20 @@ class _Reader:
             self.problems.errors.append(InputError(
                 self.book.label + info.sheet, info.ref, Found(f"{rest} more bad cells in table {ts.name}"),
                 "every cell as described above", ts.name))
+
+
+def _merged_over(book: Book, ref: CellRef) -> Optional[tuple[int, int, int, int]]:
+    """The merged range ``(row1, col1, row2, col2)`` (1-based, inclusive) covering ``ref``, if any."""
+    try:
+        ranges = book._cwb.get_sheet_by_name(ref.sheet).merged_cell_ranges or []  # noqa: SLF001
+    except (KeyboardInterrupt, SystemExit, MemoryError):
+        raise
+    except BaseException:  # noqa: BLE001 - merges only sharpen a message; python-calamine may panic
+        return None
+    for (r1, c1), (r2, c2) in ranges:
+        if r1 + 1 <= ref.row <= r2 + 1 and c1 + 1 <= ref.col <= c2 + 1:
+            return r1 + 1, c1 + 1, r2 + 1, c2 + 1
+    return None
 
 
 def _was_bad(local: Problems, ref: CellRef, book: Book) -> bool:

@@ -335,9 +335,17 @@ def _hourly_sheet(wb, st: dict) -> None:
         _head_style(ws.cell(top, 1 + k), st)
     for i in range(HOURS_PER_YEAR):
         ws.cell(top + 1 + i, 1).value = i + 1
+        for col in (2, 3):  # the load and charge columns take input; the hour numbers and headers stay locked
+            ws.cell(top + 1 + i, col).protection = st["unlocked"]
+    for k, h in enumerate(INTAKE.table("Hourly").headers[1:], start=2):
+        dv = _validation(h)
+        ws.add_data_validation(dv)
+        col = "ABC"[k - 1]
+        dv.add(f"{col}{top + 1}:{col}{top + HOURS_PER_YEAR}")
     _add_table(ws, "Hourly", f"A{top}:C{top + HOURS_PER_YEAR}")
     ws.freeze_panes = f"A{top + 1}"
     ws.print_area = f"A1:C{top + 30}"
+    _protect(ws)
 
 
 def build_intake_template(specs: Sequence[BatterySpec] = DEFAULT_CATALOG):
