@@ -30,8 +30,8 @@ class EvaluatedOption:
         Round-trip energy efficiency at the job's real rates: for cyclic jobs,
         energy out ÷ (energy in − Δstored) over the simulated year; for
         standby jobs, one standard cycle at the duty cycle's rate and depth
-        (:func:`standby_cycle`), because a floating bank's year is mostly
-        float charge, not cycling. [-]
+        (:func:`benchbook.model.jobcycle.job_cycle`), because a floating bank's
+        year is mostly float charge, not cycling. [-]
     energy_in_kwh, energy_out_kwh : float
         Energy into and out of the bank over the year. [kWh]
     unserved_kwh : float
@@ -226,6 +226,7 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
     from benchbook.model.options import enumerate_options
     from benchbook.model.profiles import job_profile
     from benchbook.model.efficiency import round_trip_efficiency
+    from benchbook.model.jobcycle import job_cycle
     from benchbook.model.simulate import job_generator, simulate
 
     if rank_by not in RANK_KEYS:
@@ -236,7 +237,7 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
         raise ModelError("no bank option to evaluate")
     profile = standby_profile(job) if job.application == "standby" else job_profile(job)
     sim = simulate(opts, profile, job.end_voltage_per_cell_v, generator=job_generator(job),
-                   charger_max_current_a=job_charger_limit_a(job), keep_traces=keep_traces)
+                   charger_max_current_a=job.charger_max_current_a, keep_traces=keep_traces)
     eco = job.economics
     year_rte = round_trip_efficiency(sim, "net_input")
     year = {k: np.asarray(sim.monthly[k]).sum(axis=0)
@@ -251,7 +252,7 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
         capex = bank_capex(o.blocks, spec.unit_price, eco.install_cost)
         repl = [(y, replacement_cost(o.blocks, spec.unit_price, eco.replacement_labour_per_block))
                 for y in repl_years]
-        cycle = standby_cycle(job, o) if job.application == "standby" else None
+        cycle = job_cycle(job, o) if job.application == "standby" else None
         rte = cycle.energy if cycle is not None else float(year_rte[i])
         delivered = float(sim.energy_out_kwh[i])
         e_in = float(sim.energy_in_kwh[i])
@@ -283,11 +284,6 @@ def evaluate_options(job, catalog=None, *, rank_by: str = "cost", options=None,
             voltage_trace=None if sim.voltage_trace is None else sim.voltage_trace[:, i].copy(),
             monthly={k: np.asarray(v)[:, i].copy() for k, v in sim.monthly.items()}))
     return rank_evaluated(out, rank_by, job.application)
-
-
-def job_charger_limit_a(job) -> Optional[float]:
-    """The job's charger current limit for the whole bank, ``job.charger_max_current_a``; None for no limit. [A]"""
-    return job.charger_max_current_a
 
 
 def _rte_what(cycle) -> str:
@@ -375,25 +371,6 @@ def option_readiness(eco, *, capex: float, replacements, float_ah: float, float_
                             years=eco.horizon_years, float_current_a=amps, float_voltage_v=float_kwh * 1000.0 / float_ah,
                             energy_price_per_kwh=eco.energy_price_per_kwh, replacements=replacements)
     return float(res.per_year), float(amps), ""
-
-
-def standby_cycle(job, option):
-    """One standard cycle of a standby bank at its duty cycle's mean current and depth.
-
-    The rates of :func:`benchbook.model.jobcycle.job_cycle_rates` (standby):
-    discharge at the duty cycle's Ah-weighted mean bank current, to the depth
-    the duty cycle takes out; recharge with the charger's power left after the
-    plant's continuous load, at the float voltage, within the battery's and the
-    charger's current limits.
-
-    Returns
-    -------
-    CycleEfficiency
-        See :func:`benchbook.model.efficiency.cycle_efficiency`.
-    """
-    from benchbook.model.jobcycle import job_cycle
-
-    return job_cycle(job, option)
 
 
 RANK_KEYS = ("cost", "unserved", "price", "weight")
