@@ -8,6 +8,7 @@ wheel, unpacks it into a folder of its own (what pip does for a pure-Python whee
 from __future__ import annotations
 
 import json
+import shutil
 import subprocess
 import sys
 import zipfile
@@ -21,7 +22,11 @@ ROOT = Path(__file__).resolve().parents[1]
 @pytest.fixture(scope="module")
 def wheel(tmp_path_factory) -> Path:
     out = tmp_path_factory.mktemp("wheel")
-    cmd = [sys.executable, "-m", "pip", "wheel", "--no-deps", "--quiet", "-w", str(out), str(ROOT)]
+    # build from a copy, so the build's own folders (build/, *.egg-info) never land in the source tree
+    src = tmp_path_factory.mktemp("src") / "benchbook"
+    shutil.copytree(ROOT, src, ignore=shutil.ignore_patterns(".git", "build", "dist", "*.egg-info", "tests",
+                                                             ".hypothesis", "__pycache__", "demo-out", "out"))
+    cmd = [sys.executable, "-m", "pip", "wheel", "--no-deps", "--quiet", "-w", str(out), str(src)]
     r = subprocess.run(cmd + ["--no-build-isolation"], capture_output=True, text=True, timeout=600)
     if r.returncode != 0:  # no setuptools in this environment: let pip fetch the build backend
         r = subprocess.run(cmd, capture_output=True, text=True, timeout=600)
