@@ -161,8 +161,9 @@ def sg_corrected(sg: float | np.ndarray, temp_c: float | np.ndarray, convention:
     References
     ----------
     IEEE Std 450, specific-gravity temperature correction (from memory).
-    Battery manufacturers' installation and operating manuals (+0.004 per
-    10 °F from 80 °F; +0.0007 per °C from 20 °C) [text].
+    Service and operating manuals (+0.004 per 10 °F from 80 °F, e.g. US Army
+    TM 5-4210-230-14&P-1; +0.0007 per °C from 20 °C) [text]; their printed
+    worked numbers are listed in ``docs/references.md`` and tested.
     """
     ref, per_c = SG_CONVENTIONS[convention] if convention in SG_CONVENTIONS else (None, None)
     if ref is None:
