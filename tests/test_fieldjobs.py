@@ -187,16 +187,87 @@ def test_remaining_life_runs_to_the_replacement_threshold_given(tmp_path):
 
     def years(*extra: str) -> tuple[float, str]:
         r = run("check", str(CLEAN_CT), *extra)
-        m = re.search(r"about ([0-9.]+) years to ([0-9]+) % \(design aging rate: ([0-9]+)% over ([0-9]+) years\)",
-                      r.stdout)
+        m = re.search(r"about ([0-9.]+) years to ([0-9]+) % \(service life ([0-9.]+) years to ([0-9]+)%, the design "
+                      r"float life at 24 °C", r.stdout)
         assert m, r.stdout
-        return float(m.group(1)), m.group(2), float(m.group(3)), float(m.group(4))
+        return float(m.group(1)), m.group(2), float(m.group(3)), m.group(4)
 
-    y80, at80, drop80, life = years()
-    y85, at85, drop85, _ = years("--replace-below-percent", "85")
-    assert (at80, at85, drop80, drop85) == ("80", "85", 20.0, 15.0)
+    y80, at80, life, rule80 = years()
+    y85, at85, life85, rule85 = years("--replace-below-percent", "85")
+    assert (at80, at85, rule80, rule85) == ("80", "85", "80", "85")
+    # the sample sheet carries no simulated life: the design float life of 20 years at 25 °C stands in, shortened
+    # to 24 °C mean temperature it stays 20 (halving per 10 °C applies above 25 °C only; common practice, no source)
+    assert life == life85 == 20.0
     # same health h: y80 = (h - 0.80) / (0.20 / life) and y85 = (h - 0.85) / (0.15 / life) (arithmetic)
     h = 0.80 + y80 * 0.20 / life
     # both figures are printed to 0.1 year: h carries ±0.0005, so y85 is known to ±0.07 + 0.05
     assert y85 == pytest.approx((h - 0.85) / (0.15 / life), abs=0.15)
     assert y85 < y80
+
+
+OFFGRID = ROOT / "samples" / "offgrid-cabin.xlsx"
+
+
+@pytest.mark.parametrize("job_path, option, limited_by", [(OFFGRID, 1, "float"), (OFFGRID, 4, "cycling"),
+                                                         (TELECOM, 1, "float")],
+                         ids=["cyclic-float", "cyclic-cycling", "standby"])
+def test_remaining_life_starts_from_the_simulated_service_life(tmp_path, job_path, option, limited_by):
+    # The issue asks for the remaining life "from the simulation's life model, applied to the measured health".
+    # The sheet carries the option's simulated service life (rainflow counting, ASTM E1049-85, and Miner's rule
+    # on the simulated year, or the float life, the lower: benchbook.model.life.service_life), and check places
+    # the measured health on it: years left = (h - 0.80) / 0.20 x life (linear fall of capacity with consumed
+    # life, common practice, no source; 80 % is IEEE 450's replacement level).
+    import datetime as dt
+    import math
+
+    from benchbook.model.life import float_life_years, service_life
+    from benchbook.sheets.fieldjobs import bank_from_job
+    from benchbook.sheets.fieldsamples import fill_capacity_test, simulate_capacity_test
+    from benchbook.sheets.fieldsheet import write_field_sheet
+    from benchbook.sheets.report import evaluate_job, pick_option
+
+    job, evaluated = evaluate_job(job_path, None)
+    rec = pick_option(evaluated, option)
+    spec = rec.option.spec
+    assert rec.life_limited_by == limited_by  # the cases cover both limits
+    # the record's life is the simulation's: recompute it from the simulated state-of-charge trace
+    again = service_life(rec.soc_trace, cycle_life=spec.cycle_life, design_life_25c_years=spec.float_life_years,
+                         avg_temp_c=job.avg_temp_c)
+    assert rec.service_life_years == pytest.approx(again.years, rel=0.02)
+    assert rec.life_limited_by == again.limited_by
+    bank = bank_from_job(job_path, option, bank_id="B-1")
+    assert bank.model_life_years == pytest.approx(rec.service_life_years, abs=0.005)
+    assert bank.model_life_limited_by == rec.life_limited_by
+
+    blank = write_field_sheet(bank, "capacity-test", tmp_path / "blank.xlsx")
+    assert _named(blank, "test_model_life_years") == pytest.approx(bank.model_life_years)
+    assert _named(blank, "test_life_limited_by") == rec.life_limited_by
+    sim = simulate_capacity_test(bank, health=0.9, spread=0.0, temp_c=25.0, seed=3)
+    filled = fill_capacity_test(blank, tmp_path / "filled.xlsx", sim, date=dt.date(2026, 11, 2))
+    r = run("check", str(filled), "--json")
+    assert r.returncode in (0, 1), r.stderr
+    model = json.loads(r.stdout)["model"]
+    life = bank.model_life_years
+    assert f"service life {life:.1f} years to 80%, the model's, limited by {rec.life_limited_by}" in model["life_rule"]
+    assert model["remaining_life_years"] == pytest.approx((model["health"] - 0.80) / 0.20 * life, abs=0.06)
+    if limited_by == "cycling":  # the gel class wears out by daily cycling in about 4 years, not 12 on float
+        assert life < float_life_years(spec.float_life_years, job.avg_temp_c) / 2
+        assert "rainflow counting and Miner's rule" in model["life_rule"]
+    else:
+        assert life == pytest.approx(float_life_years(spec.float_life_years, job.avg_temp_c), abs=0.005)
+    assert math.isfinite(model["remaining_life_years"])
+
+
+def test_fieldsheet_from_a_quote_carries_the_simulated_service_life(quote, tmp_path):
+    from benchbook.sheets.fieldjobs import bank_from_job, bank_from_quote
+
+    b = bank_from_quote(quote)
+    assert b.model_life_years == pytest.approx(_named(quote, "quote_service_life_years"), abs=0.005)
+    assert b.model_life_limited_by == _named(quote, "quote_life_limited_by")
+    assert b.model_life_years == pytest.approx(bank_from_job(TELECOM, 1).model_life_years, abs=0.06)
+    # a quote without those names (an older template) still gives a bank, with no simulated life
+    wb = openpyxl.load_workbook(quote)
+    del wb.defined_names["quote_service_life_years"]
+    older = tmp_path / "older.xlsx"
+    wb.save(older)
+    assert bank_from_quote(older).model_life_years is None

@@ -9,7 +9,8 @@ import pytest
 from benchbook.sheets.contract_check import check_template
 from benchbook.errors import FileFormatError, SpecError
 from benchbook.model.catalog import DEFAULT_CATALOG
-from benchbook.model.readings import FieldBank, block_ids_for
+from benchbook.model.fieldbank import FieldBank
+from benchbook.model.readings import block_ids_for
 from benchbook.sheets import names as N
 from benchbook.sheets.fieldsheet import write_field_sheet
 

@@ -282,7 +282,8 @@ def test_compare_with_model_cold():
     assert cmp.health == pytest.approx(1.0, rel=1e-9)
     assert cmp.refit.q_max_ah == pytest.approx(MM.q_max_ah, rel=1e-9)  # corrected back to 25 °C
     # design life at 35 °C halves per 10 °C (common practice, no source): 10 years
-    assert "over 10 years" in cmp.life_rule
+    assert "service life 10.0 years to 80%, the design float life at 35 °C" in cmp.life_rule
+    assert "cycling wear is not counted" in cmp.life_rule
 
 
 def test_refit_and_remaining_life():

@@ -334,7 +334,7 @@ def quote_bases() -> tuple[tuple[str, bytes], ...]:
 def _catalog_and_quote_readers(path: Path, kind: str) -> None:
     """The catalog or quote readers on ``path``: a result of the documented type, or a BenchbookError."""
     from benchbook.model.battery import BatterySpec
-    from benchbook.model.readings import FieldBank
+    from benchbook.model.fieldbank import FieldBank
     from benchbook.sheets.catalog import read_catalog
     from benchbook.sheets.fieldjobs import bank_from_quote
     from benchbook.sheets.templatecheck import template_check

@@ -268,28 +268,37 @@ def refit_q_max(kibam: Kibam, current_a: float, runtime_h: float) -> Kibam:
     return kibam.scaled(i * t / float(kibam.capacity_ah(t)))
 
 
-def remaining_life_years(health: float, design_life_years: float, *, age_years: Optional[float] = None,
-                         replace_at: float = 0.80) -> tuple[float, float, str]:
-    """Years until health reaches the replacement level, at the design aging rate.
+def remaining_life_years(health: float, service_life_years: float, *, age_years: Optional[float] = None,
+                         replace_at: float = 0.80, basis: str = "") -> tuple[float, float, str]:
+    """Years until health reaches the replacement level, on the expected service life.
 
-    Rule (benchbook's, no source): a bank loses ``(1 - replace_at)`` of its
-    health evenly over its design life, so the design aging rate is
-    ``(1 - replace_at) / design_life_years`` per year and the remaining life is
-    ``(health - replace_at) / rate``. When ``age_years`` is given and the bank
-    has aged faster than that (``(1 - health) / age_years`` larger), the faster
-    observed rate is used. Real banks often age slowly, then fall off quickly
-    near the end, so this is an estimate to plan the next test, not a promise.
+    The expected service life is the time the bank takes to fall from full
+    health to ``replace_at`` (IEEE 450 calls a bank at 80 % due for
+    replacement). The health measured today is placed on that span, as a
+    linear fall of capacity with consumed life (common practice, no source):
+    the fraction of life used is ``(1 - health) / (1 - replace_at)``, the
+    aging rate is ``(1 - replace_at) / service_life_years`` per year and the
+    remaining life is ``(health - replace_at) / rate``. When ``age_years`` is
+    given and the bank has aged faster than that (``(1 - health) / age_years``
+    larger), the faster observed rate is used. Real banks often age slowly,
+    then fall off quickly near the end, so this is an estimate to plan the
+    next test, not a promise.
 
     Parameters
     ----------
     health : float
         Capacity relative to new. [-]
-    design_life_years : float
-        Design (float) life at the bank's temperature. [years]
+    service_life_years : float
+        Expected service life: the simulation's (cycle life by rainflow and
+        Miner's rule, or float life, the lower; :func:`benchbook.model.life.service_life`),
+        or the design float life at the site's temperature when the simulation
+        is not at hand. [years]
     age_years : float, optional
         Time in service. [years]
     replace_at : float
         Health at which the bank is replaced (0.80 per IEEE 450). [-]
+    basis : str
+        Words for where ``service_life_years`` came from, for the rule text.
 
     Returns
     -------
@@ -297,25 +306,27 @@ def remaining_life_years(health: float, design_life_years: float, *, age_years: 
 
     References
     ----------
-    IEEE Std 450, replacement at 80 % of rated capacity [text]; the linear
-    aging rule is benchbook's own.
+    IEEE Std 450, replacement at 80 % of rated capacity [text]. Linear fall of
+    capacity with consumed life: common practice, no source.
     """
     h = _finite("health", health, nonneg=True)
-    life = _finite("design_life_years", design_life_years, positive=True)
+    life = _finite("service_life_years", service_life_years, positive=True)
     rate = (1.0 - replace_at) / life
-    rule = f"design aging rate: {1 - replace_at:.0%} over {life:g} years"
+    rule = f"service life {life:.1f} years to {replace_at:.0%}" + (f", {basis}" if basis else "")
     if age_years is not None and _finite("age_years", age_years, nonneg=True) > 0:
         observed = (1.0 - h) / age_years
         if observed > rate:
             rate = observed
-            rule = f"observed aging rate: {1 - h:.0%} lost in {age_years:g} years"
+            rule = f"observed aging rate: {1 - h:.0%} lost in {age_years:g} years, faster than the {rule}"
     return max(0.0, (h - replace_at) / rate), rate, rule
 
 
 def compare_with_model(kibam: Kibam, *, current_per_string_a: float, temp_c: float, measured_minutes: float,
-                       rated_minutes: float, design_life_25c_years: float, avg_temp_c: float = 25.0,
-                       age_years: Optional[float] = None, replace_at: float = 0.80,
-                       log: Optional[tuple[Sequence[float], Sequence[float]]] = None) -> ModelComparison:
+                       rated_minutes: float, design_life_25c_years: Optional[float] = None,
+                       avg_temp_c: float = 25.0, age_years: Optional[float] = None, replace_at: float = 0.80,
+                       log: Optional[tuple[Sequence[float], Sequence[float]]] = None,
+                       model_life_years: Optional[float] = None,
+                       model_life_limited_by: str = "") -> ModelComparison:
     """Predicted runtime from the bank's KiBaM beside the measured one; health and effective capacity.
 
     The model's runtime at the test temperature uses the datasheet fit with
@@ -327,8 +338,13 @@ def compare_with_model(kibam: Kibam, *, current_per_string_a: float, temp_c: flo
     at the rated time is the effective capacity today. ``c`` and ``k`` are
     kept: one discharge to one end voltage determines one parameter
     (``refit_rule`` says so in words). The remaining life follows
-    :func:`remaining_life_years`, with the design life shortened for the
-    site's mean temperature by :func:`benchbook.model.life.float_life_years`.
+    :func:`remaining_life_years` on the service life the sizing simulation
+    expects (``model_life_years``: rainflow cycle counting and Miner's rule
+    on the simulated year, or the float life, the lower; see
+    :func:`benchbook.model.life.service_life`). Without it, the design float
+    life shortened for the site's mean temperature
+    (:func:`benchbook.model.life.float_life_years`) stands in, and
+    ``life_rule`` says so.
 
     Parameters
     ----------
@@ -342,8 +358,9 @@ def compare_with_model(kibam: Kibam, *, current_per_string_a: float, temp_c: flo
         Time to the end voltage in the test. [min]
     rated_minutes : float
         Rated time at the test current. [min]
-    design_life_25c_years : float
-        Design float life at 25 °C from the datasheet. [years]
+    design_life_25c_years : float, optional
+        Design float life at 25 °C from the datasheet; used when
+        ``model_life_years`` is not given. [years]
     avg_temp_c : float
         Mean battery temperature over the year at the site. [°C]
     age_years : float, optional
@@ -352,6 +369,10 @@ def compare_with_model(kibam: Kibam, *, current_per_string_a: float, temp_c: flo
         Health at which the bank is replaced. [-]
     log : (elapsed minutes, current of one string [A]), optional
         The test's logged currents; NaN where not read (the test current is used there).
+    model_life_years : float, optional
+        Service life the sizing simulation expects for the bank. [years]
+    model_life_limited_by : str
+        ``"cycling"`` or ``"float"``: what limits ``model_life_years``.
 
     Returns
     -------
@@ -382,7 +403,18 @@ def compare_with_model(kibam: Kibam, *, current_per_string_a: float, temp_c: flo
                   "1/h kept from the datasheet fit: one discharge to one end voltage determines one parameter")
     rated_ah = float(kibam.capacity_ah(t_rated / 60.0))
     eff_ah = float(refit.capacity_ah(t_rated / 60.0))
-    life = float_life_years(design_life_25c_years, avg_temp_c)
-    years, rate, rule = remaining_life_years(health, life, age_years=age_years, replace_at=replace_at)
+    if model_life_years is not None:
+        life = _finite("model_life_years", model_life_years, positive=True)
+        by = {"cycling": ", limited by cycling (rainflow counting and Miner's rule on the simulated year)",
+              "float": f", limited by float life at {avg_temp_c:g} °C"}.get(model_life_limited_by, "")
+        basis = f"the model's{by}"
+    elif design_life_25c_years is not None:
+        life = float_life_years(design_life_25c_years, avg_temp_c)
+        basis = (f"the design float life at {avg_temp_c:g} °C; the sheet carries no simulated service life, "
+                 "so cycling wear is not counted")
+    else:
+        raise ModelError("remaining life: found neither model_life_years nor design_life_25c_years; "
+                         "expected one of them")
+    years, rate, rule = remaining_life_years(health, life, age_years=age_years, replace_at=replace_at, basis=basis)
     return ModelComparison(i, float(temp_c), k, predicted, t_meas, health, kibam, refit, rated_ah, eff_ah,
                            years, rate, rule, refit_rule)

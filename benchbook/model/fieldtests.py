@@ -22,7 +22,8 @@ import numpy as np
 
 from benchbook.errors import FieldProblem, ModelError, SpecError
 from benchbook.model.findings import Finding
-from benchbook.model.readings import (SG_CONVENTIONS, FieldBank, block_ids_for,  # noqa: F401 - public here too
+from benchbook.model.fieldbank import FieldBank  # noqa: F401 - public here too
+from benchbook.model.readings import (SG_CONVENTIONS, block_ids_for,  # noqa: F401 - public here too
                                       parse_block_id, sg_corrected)
 from benchbook.model.temperature import ieee485_factor, ieee485_factor_checked
 

@@ -154,16 +154,19 @@ def _comparison(rec: CapacityTestRecord, replace_at: float = 0.80
     rows = [r for r in rec.ratings if r[0] >= 1.0]
     if len(rows) < 3:
         rows = list(rec.ratings)
-    if len(rows) < 3 or rec.design_life_years is None:
+    if len(rows) < 3 or (rec.design_life_years is None and rec.model_life_years is None):
         return None, [Finding(rec.cells.at("end_minute"), "info", "No model comparison: the sheet lacks the battery "
-                              "rating (three ratings) or its design life.", "no-model")]
+                              "rating (three ratings) or a service life (the model's or the design float "
+                              "life).", "no-model")]
     try:
         kb = _fit(tuple(rows))
         t = rec.test
         cmp = compare_with_model(kb, current_per_string_a=t.test_current_a / t.parallel, temp_c=t.start_temp_c,
                                  measured_minutes=max(t.end_minute, 1e-6), rated_minutes=t.rated_minutes,
                                  design_life_25c_years=rec.design_life_years, avg_temp_c=rec.avg_temp_c,
-                                 age_years=rec.age_years, log=_string_log(t), replace_at=replace_at)
+                                 age_years=rec.age_years, log=_string_log(t), replace_at=replace_at,
+                                 model_life_years=rec.model_life_years,
+                                 model_life_limited_by=rec.model_life_limited_by)
     except BenchbookError as exc:
         return None, [Finding(rec.cells.at("end_minute"), "info", f"No model comparison: {exc}", "no-model")]
     msg = (f"Model (KiBaM fitted to the rating, derated by the IEEE 485 factor {cmp.factor:.3f}): "

@@ -148,7 +148,8 @@ def run_demo(outdir: str | Path, force: bool = False, pdf: Optional[bool] = None
     """
     from benchbook.model.evaluate import standby_profile
     from benchbook.model.profiles import job_profile
-    from benchbook.model.readings import FieldBank, block_ids_for
+    from benchbook.model.fieldbank import FieldBank
+    from benchbook.model.readings import block_ids_for
     from benchbook.sheets import office
     from benchbook.sheets.compare import write_comparison
     from benchbook.sheets.fieldsamples import (fill_capacity_test, fill_readings, simulate_capacity_test,
@@ -188,9 +189,11 @@ def run_demo(outdir: str | Path, force: bool = False, pdf: Optional[bool] = None
 
     # Field sheets for the recommended standby bank, blank and filled by an invented crew.
     standby = res.jobs[1]
-    o = standby.evaluated[0].option
+    rec = standby.evaluated[0]
+    o = rec.option
     bank = FieldBank(standby.job.site, "DC-A", o.spec, o.series, o.parallel, test_hours=3.0,
-                     avg_temp_c=standby.job.avg_temp_c, client=standby.job.client)
+                     avg_temp_c=standby.job.avg_temp_c, client=standby.job.client,
+                     model_life_years=round(rec.service_life_years, 2), model_life_limited_by=rec.life_limited_by)
     field_dir, filled_dir = out / "field", out / "field" / "filled"
     filled_dir.mkdir(parents=True, exist_ok=True)
     blank_ct = write_field_sheet(bank, "capacity-test", field_dir / "DC-A-capacity-test.xlsx", force=force,

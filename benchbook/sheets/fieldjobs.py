@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 from typing import Optional
 
@@ -11,29 +12,39 @@ from benchbook.errors import InputError, Problems
 def bank_from_job(job_path: str | Path, option: int = 1, *, catalog: Optional[str | Path] = None,
                   bank_id: str = "BANK-1", test_hours: float = 3.0):
     """The :class:`~benchbook.model.readings.FieldBank` of option ``option`` of a job workbook."""
-    from benchbook.model.readings import FieldBank
+    from benchbook.model.fieldbank import FieldBank
     from benchbook.sheets.report import evaluate_job, pick_option
 
     job, evaluated = evaluate_job(job_path, catalog)
-    o = pick_option(evaluated, option).option
+    rec = pick_option(evaluated, option)
+    o = rec.option
     return FieldBank(job.site, bank_id, o.spec, o.series, o.parallel, test_hours=test_hours,
-                     avg_temp_c=job.avg_temp_c, client=job.client)
+                     avg_temp_c=job.avg_temp_c, client=job.client, **_model_life(rec.service_life_years,
+                                                                                 rec.life_limited_by))
+
+
+def _model_life(years, limited_by) -> dict:
+    """The simulated service life as FieldBank keywords; nothing when it is not a finite positive number."""
+    if isinstance(years, (int, float)) and not isinstance(years, bool) and math.isfinite(years) and years > 0:
+        by = limited_by if limited_by in ("cycling", "float") else ""
+        return {"model_life_years": round(float(years), 2), "model_life_limited_by": by}
+    return {}
 
 
 def bank_from_quote(quote_path: str | Path, *, catalog: Optional[str | Path] = None, bank_id: str = "BANK-1",
                     test_hours: float = 3.0, avg_temp_c: float = 25.0):
     """The bank a filled quote describes, found by its defined names (template contract)."""
     from benchbook.model.catalog import DEFAULT_CATALOG
-    from benchbook.model.readings import FieldBank
+    from benchbook.model.fieldbank import FieldBank
     from benchbook.sheets.catalog import read_catalog
-    from benchbook.sheets.tables import Book, resolve_name
+    from benchbook.sheets.tables import Book
 
     name = Path(quote_path).name
     values = {}
     problems = Problems(name)
     with Book(quote_path) as book:
         for key in ("quote_site", "quote_client", "quote_battery_model", "quote_bank_series", "quote_bank_parallel"):
-            t = resolve_name(book._wb, key)
+            t = book.name(key)
             if t.problem == "missing":
                 problems.add(name, "", key, "a quote made by benchbook quote (defined name missing)", key)
                 continue
@@ -43,6 +54,9 @@ def bank_from_quote(quote_path: str | Path, *, catalog: Optional[str | Path] = N
                              f"defined name {key} on one cell of this workbook ({t.reason})", key)
                 continue
             values[key] = (t.cell, book.value(t.cell))
+        # the simulated service life, when the quote carries it (optional names: an older quote may not)
+        life = {key: book.value(t.cell) for key in ("quote_service_life_years", "quote_life_limited_by")
+                if not (t := book.name(key)).problem}
     problems.raise_if_any()
     specs = read_catalog(catalog) if catalog else DEFAULT_CATALOG
     ref, model = values["quote_battery_model"]
@@ -60,7 +74,8 @@ def bank_from_quote(quote_path: str | Path, *, catalog: Optional[str | Path] = N
     problems.raise_if_any()
     return FieldBank(str(values["quote_site"][1]), bank_id, spec, ints["quote_bank_series"],
                      ints["quote_bank_parallel"], test_hours=test_hours, avg_temp_c=avg_temp_c,
-                     client=str(values["quote_client"][1] or ""))
+                     client=str(values["quote_client"][1] or ""),
+                     **_model_life(life.get("quote_service_life_years"), life.get("quote_life_limited_by")))
 
 
 def write_fieldsheet(kind: str, out: str | Path, *, job: Optional[str | Path] = None,

@@ -29,7 +29,7 @@ from typing import Optional
 import numpy as np
 
 from benchbook.model.fieldtests import temperature_factor
-from benchbook.model.readings import FieldBank
+from benchbook.model.fieldbank import FieldBank
 from benchbook.model.voltage import copetti_discharge_voltage, rate_term_scale
 from benchbook.sheets import names as N
 from benchbook.sheets.fieldsheet import write_field_sheet

@@ -27,7 +27,7 @@ from pathlib import Path
 from typing import Any, Optional
 
 from benchbook.errors import ModelError
-from benchbook.model.readings import FieldBank
+from benchbook.model.fieldbank import FieldBank
 from benchbook.model.safety import bank_short_circuit, cautions
 from benchbook.sheets import names as N
 from benchbook.sheets.safeio import atomic_output
@@ -224,7 +224,8 @@ def _bank_fields(cv: _Cover, bank: FieldBank, prefix: str) -> None:
     values = {"site": bank.site, "bank_id": bank.bank_id, "spec.model": s.model, "spec.chemistry": s.chemistry,
               "spec.cells_per_block": s.cells_per_block, "series": bank.series, "parallel": bank.parallel,
               "spec.float_life_years": s.float_life_years, "avg_temp_c": bank.avg_temp_c,
-              "spec.float_voltage_per_cell_v": s.float_voltage_per_cell_v}
+              "spec.float_voltage_per_cell_v": s.float_voltage_per_cell_v,
+              "model_life_years": bank.model_life_years, "model_life_limited_by": bank.model_life_limited_by or None}
     for spec in c.names:
         if spec.group.startswith("Bank"):
             cv.field(spec, values.get(spec.field), locked=True)

@@ -339,6 +339,8 @@ _YES_NO = ("yes", "no")
 #: their cells hold block voltages [V]. The prefix is part of the contract.
 BLOCK_COLUMN_PREFIX = "Block "
 FIELD_METHODS = ("time-adjusted", "rate-adjusted")
+#: What limits a simulated service life (``benchbook.model.life.ServiceLife.limited_by``).
+LIFE_LIMITS = ("cycling", "float")
 SG_CONVENTION_CHOICES = ("ieee", "manual-80f", "ref-20c")
 ELECTROLYTE_LEVELS = ("ok", "low", "high")
 
@@ -365,6 +367,11 @@ CAPACITY_TEST_NAMES: tuple[NameSpec, ...] = (
        _G_T_BANK, low=0, low_open=True, high=40, help="For the remaining-life estimate; blank = not estimated."),
     _n("test_avg_temp_c", "Mean battery temperature over the year", "°C", "number", "avg_temp_c", _G_T_BANK,
        low=-40, high=60, default=25.0, help="Shortens the design life above 25 °C."),
+    _n("test_model_life_years", "Service life the model expects", "years", "number", "model_life_years",
+       _G_T_BANK, low=0, low_open=True, high=60,
+       help="Simulated year: cycle or float life, the lower. Blank = design float life."),
+    _n("test_life_limited_by", "Service life limited by", "", "choice", "model_life_limited_by", _G_T_BANK,
+       choices=LIFE_LIMITS, help="cycling or float."),
     _n("test_rated_minutes", "Rated time at the test current", "min", "number", "rated_minutes", _G_T_SETUP,
        required=True, low=0, low_open=True, high=6000,
        help="Time the rating gives to the end voltage at the test current, 25 °C."),

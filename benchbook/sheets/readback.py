@@ -117,6 +117,8 @@ class CapacityTestRecord:
     cells: CellMap
     notes: tuple[Finding, ...] = ()
     kind: str = "capacity-test"
+    model_life_years: Optional[float] = None
+    model_life_limited_by: str = ""
 
     def as_dict(self) -> dict[str, Any]:
         """Every value read, JSON-ready (NaN as None): for comparing two reads of one sheet."""
@@ -128,7 +130,8 @@ class CapacityTestRecord:
                                                   "block_voltage_v")}
         rest = {k: getattr(self, k) for k in ("crew", "ambient_temp_c", "charger_disconnected", "last_full_charge",
                                               "test_power_w", "baseline_percent", "age_years", "design_life_years",
-                                              "avg_temp_c", "remarks")}
+                                              "avg_temp_c", "model_life_years", "model_life_limited_by",
+                                              "remarks")}
         return {"kind": self.kind, "bank": vars(self.bank).copy(), "date": self.date.isoformat() if self.date else None,
                 **rest, **head, "block_ids": list(t.block_ids), **log, "ratings": [list(r) for r in self.ratings]}
 

@@ -374,7 +374,9 @@ def read_capacity(rd: _Reader) -> Optional[CapacityTestRecord]:
                               vals.get("last_full_charge") or "", power, vals.get("baseline_percent"),
                               vals.get("age_years"), vals.get("spec.float_life_years"),
                               vals.get("avg_temp_c") if vals.get("avg_temp_c") is not None else 25.0,
-                              vals.get("remarks") or "", ratings, cells)
+                              vals.get("remarks") or "", ratings, cells,
+                              model_life_years=vals.get("model_life_years"),
+                              model_life_limited_by=vals.get("model_life_limited_by") or "")
 
 
 def _ratings(rd: _Reader, book: RawBook) -> tuple[tuple[float, float], ...]:

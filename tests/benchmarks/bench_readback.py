@@ -39,7 +39,7 @@ import xlsxwriter
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 from benchbook.model.catalog import DEFAULT_CATALOG  # noqa: E402
-from benchbook.model.readings import FieldBank  # noqa: E402
+from benchbook.model.fieldbank import FieldBank  # noqa: E402
 from benchbook.sheets import names as N  # noqa: E402
 from benchbook.sheets import safeio  # noqa: E402
 from benchbook.sheets.checked import check_file  # noqa: E402
