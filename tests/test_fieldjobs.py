@@ -271,3 +271,22 @@ def test_fieldsheet_from_a_quote_carries_the_simulated_service_life(quote, tmp_p
     older = tmp_path / "older.xlsx"
     wb.save(older)
     assert bank_from_quote(older).model_life_years is None
+
+
+@pytest.mark.parametrize("name, value, expected", [
+    ("test_model_life_years", "abc", 'found "abc"; expected a number above 0 and at most 60 years'),
+    ("test_model_life_years", -3, "found -3; expected a number above 0 and at most 60 years"),
+    ("test_life_limited_by", "wear", 'found "wear"; expected one of cycling, float'),
+])
+def test_a_retyped_service_life_is_an_error_at_its_cell(tmp_path, name, value, expected):
+    from benchbook.sheets.readback import read_with_notes
+
+    wb = openpyxl.load_workbook(CLEAN_CT)
+    sheet, ref = next(iter(wb.defined_names[name].destinations))
+    ref = ref.replace("$", "")
+    wb[sheet][ref].value = value
+    bad = tmp_path / "bad.xlsx"
+    wb.save(bad)
+    res = read_with_notes(bad)
+    assert res.record is None
+    assert any(e.where == f"{sheet}!{ref}" and expected in e.message for e in res.errors), res.errors
