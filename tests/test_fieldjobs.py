@@ -208,10 +208,11 @@ def test_remaining_life_runs_to_the_replacement_threshold_given(tmp_path):
 OFFGRID = ROOT / "samples" / "offgrid-cabin.xlsx"
 
 
-@pytest.mark.parametrize("job_path, option, limited_by", [(OFFGRID, 1, "float"), (OFFGRID, 4, "cycling"),
-                                                         (TELECOM, 1, "float")],
+@pytest.mark.parametrize("job_path, model, limited_by", [(OFFGRID, "IL-2F-420", "float"),
+                                                        (OFFGRID, "IL-12G-90", "cycling"),
+                                                        (TELECOM, "IL-6F-225", "float")],
                          ids=["cyclic-float", "cyclic-cycling", "standby"])
-def test_remaining_life_starts_from_the_simulated_service_life(tmp_path, job_path, option, limited_by):
+def test_remaining_life_starts_from_the_simulated_service_life(tmp_path, job_path, model, limited_by):
     # The issue asks for the remaining life "from the simulation's life model, applied to the measured health".
     # The sheet carries the option's simulated service life (rainflow counting, ASTM E1049-85, and Miner's rule
     # on the simulated year, or the float life, the lower: benchbook.model.life.service_life), and check places
@@ -227,6 +228,7 @@ def test_remaining_life_starts_from_the_simulated_service_life(tmp_path, job_pat
     from benchbook.sheets.report import evaluate_job, pick_option
 
     job, evaluated = evaluate_job(job_path, None)
+    option = next(e.rank for e in evaluated if e.option.model == model)
     rec = pick_option(evaluated, option)
     spec = rec.option.spec
     assert rec.life_limited_by == limited_by  # the cases cover both limits

@@ -431,7 +431,7 @@ def test_offgrid_sample():
     # arithmetic below
     job, catalog = read_job(REPO / "samples" / "offgrid-cabin.xlsx")
     assert (job.application, job.system_voltage_v, job.autonomy_days, job.max_dod, job.min_temp_c) == \
-        ("cyclic", 48.0, 3.0, 0.5, -10.0)
+        ("cyclic", 48.0, 2.0, 0.5, -10.0)
     assert (job.design_margin, job.aging_factor, job.end_voltage_per_cell_v, job.inverter_efficiency) == \
         (1.1, 1.25, 1.85, 0.92)
     # 120·6 + 90·10 + 80·10 + 400·1.5 + 150·8 + 30·24 + 10·24 + 45·24 + 50·8 + 800·0.75 = 7260 Wh/day (by hand)

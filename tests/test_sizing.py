@@ -16,6 +16,7 @@ from benchbook.model.battery import BatterySpec
 from benchbook.model.catalog import DEFAULT_CATALOG
 from benchbook.model.job import DutyPeriod, Job, Load
 from benchbook.model.rate import Kibam
+from benchbook.model.rate_bank import bank_at_load
 from benchbook.model.sizing import (autonomy_size, duty_cycle_size, kibam_for, kt_from_spec, series_count,
                                     string_capacity_ah)
 
@@ -380,8 +381,15 @@ def test_unusable_catalog_and_bad_jobs():
     assert [(r.model, "KiBaM" in r.reason) for r in rejected_batteries(cyclic_job(), [two, flat_spec()])] == \
         [("TEST-TWO-RATINGS", True)]
     assert [o.model for o in enumerate_options(cyclic_job(), [two, flat_spec()])] == ["TEST-FLAT-100"]
-    assert {o.model for o in enumerate_options(standby_job(), [two, flat_spec()])} == {"TEST-TWO-RATINGS",
-                                                                                      "TEST-FLAT-100"}
+    standby = {o.model: o for o in enumerate_options(standby_job(), [two, flat_spec()])}
+    assert set(standby) == {"TEST-TWO-RATINGS", "TEST-FLAT-100"}
+    # the parallel gain reported for standby options is KiBaM's at the duty cycle's mean current: unknown (NaN,
+    # shown as n/a) without a KiBaM fit, and what bank_at_load gives otherwise
+    assert math.isnan(standby["TEST-TWO-RATINGS"].parallel_gain)
+    flat = standby["TEST-FLAT-100"]
+    job = standby_job()
+    ref = bank_at_load(flat.spec, flat.series, flat.parallel, load_a=job.duty_cycle_mean_current_a)
+    assert flat.parallel_gain == pytest.approx(ref.kibam_parallel_gain, rel=1e-9)
     with pytest.raises(SpecError) as ei:
         enumerate_options(cyclic_job(max_dod=0, design_margin=0.5, loads=(), window_min_v=60, window_max_v=50))
     assert {p.field for p in ei.value.problems} == {"max_dod", "design_margin", "loads", "window_max_v"}

@@ -199,3 +199,13 @@ class Job:
     def mean_dc_power_w(self) -> float:
         """Mean power drawn from the bank over the day. [W]"""
         return self.daily_dc_wh / 24.0
+
+    @property
+    def duty_cycle_mean_current_a(self) -> float:
+        """The duty cycle's mean current: its ampere-hours over its duration; 0 without a duty cycle. [A]
+
+        The constant current that takes the same charge out over the same time
+        (common practice, no source).
+        """
+        minutes = sum(d.minutes for d in self.duty_cycle)
+        return sum(d.current_a * d.minutes for d in self.duty_cycle) / minutes if minutes > 0 else 0.0

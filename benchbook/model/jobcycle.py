@@ -70,10 +70,9 @@ def job_cycle_rates(job, option) -> JobCycleRates:
     spec, p = option.spec, option.parallel
     c10 = spec.c10_ah * p
     if job.application == "standby":
-        ah = sum(d.current_a * d.minutes for d in job.duty_cycle) / 60.0
-        hours = sum(d.minutes for d in job.duty_cycle) / 60.0
+        discharge = job.duty_cycle_mean_current_a
+        ah = discharge * sum(d.minutes for d in job.duty_cycle) / 60.0
         depth = min(MAX_DEPTH, max(MIN_DEPTH, ah / c10))
-        discharge = ah / hours
         base_w = job.duty_cycle[-1].current_a * job.system_voltage_v
         # no charger stated: twice the continuous load, as the standby year assumes
         # (benchbook.model.evaluate.standby_profile)

@@ -10,8 +10,11 @@ requirement, flags what the estimator must see, and ranks the options.
   P strings deliver more than P single-string figures (the parallel gain).
 - **Standby** jobs use the IEEE 485 section method
   (:func:`benchbook.model.sizing.duty_cycle_size`) with each battery's own
-  ``K_t``; the method is linear in current, so P strings need P times less
-  and the parallel gain is 1.
+  ``K_t``; the method is linear in current (the duty cycle's times are
+  fixed), so P strings need P times less and sizing counts no gain. The
+  parallel gain reported for a standby option is KiBaM's at the duty cycle's
+  mean current (:func:`benchbook.model.rate_bank.design_load`): how much longer
+  P strings carry that current than P single strings would, for information.
 
 The vectorised core (:func:`candidate_grid`, :func:`score_autonomy`,
 :func:`score_standby`, :func:`first_enough`) works on plain numpy arrays and is
@@ -32,6 +35,7 @@ from benchbook.model.battery import BatterySpec
 from benchbook.model.catalog import DEFAULT_CATALOG
 from benchbook.model.job import APPLICATIONS, Job
 from benchbook.model.rate import Kibam
+from benchbook.model.rate_bank import bank_at_load, design_load
 from benchbook.model.sizing import (MEET_RTOL, DutyCycleResult, duty_cycle_size, kibam_fit_rows, kibam_for,
                                     kt_from_spec, series_count)
 from benchbook.model.temperature import ieee485_factor_checked
@@ -96,7 +100,9 @@ class BankOption:
         Blocks × unit price. [currency]
     parallel_gain : float
         One string's capacity at its share of the load ÷ its capacity carrying
-        the whole load: what P strings deliver beyond P single-string figures. [-]
+        the whole load: what P strings deliver beyond P single-string figures
+        (KiBaM; for standby options at the duty cycle's mean current, for
+        information: the IEEE 485 sizing itself counts no gain). [-]
     feasible : bool
         Meets the requirement and fits the voltage window.
     flags : tuple of str
@@ -329,6 +335,19 @@ def job_problems(job: Job) -> list[FieldProblem]:
     return out
 
 
+def _standby_gain(spec: BatterySpec, series: int, parallel: int, job: Job) -> float:
+    """KiBaM parallel gain of a standby option at the duty cycle's mean current; NaN without a KiBaM fit.
+
+    A battery with fewer than three ratings cannot be fitted (IEEE 485 sizing
+    does not need it); its gain is then unknown, shown as n/a.
+    """
+    try:
+        kb = kibam_for(spec)
+    except (SpecError, ModelError):
+        return math.nan
+    return float(bank_at_load(spec, series, parallel, kibam=kb, **design_load(job)).kibam_parallel_gain)
+
+
 def _screen(job: Job, catalog: Sequence[BatterySpec], kibams: Optional[Mapping[str, Kibam]]
             ) -> tuple[list[tuple[BatterySpec, int, Optional[Kibam]]], list[Rejection]]:
     usable, rejected = [], []
@@ -539,6 +558,9 @@ def enumerate_options(job: Job, catalog: Sequence[BatterySpec] = DEFAULT_CATALOG
                          f"of the {required_b[i]:.0f} Ah needed")
         cap = float(scores.bank_capacity_ah[j])
         blocks = n * p
+        gain = float(scores.parallel_gain[j])
+        if job.application != "cyclic":
+            gain = _standby_gain(s, n, p, job)
         basis = f"C{s.nominal_hours:g}"
         options.append(BankOption(
             model=s.model, spec=s, application=job.application, series=n, parallel=p, blocks=blocks,
@@ -548,7 +570,7 @@ def enumerate_options(job: Job, catalog: Sequence[BatterySpec] = DEFAULT_CATALOG
             string_current_a=float(scores.string_current_a[j]),
             c_rate=float(scores.string_current_a[j]) / s.nominal_ah, c_rate_basis=basis, temp_factor=tf,
             weight_kg=blocks * s.weight_kg, footprint_m2=blocks * s.footprint_m2, price=blocks * s.unit_price,
-            parallel_gain=float(scores.parallel_gain[j]), feasible=bool(reached[i]) and window_ok,
+            parallel_gain=gain, feasible=bool(reached[i]) and window_ok,
             flags=tuple(flags), duty_cycle=duty[i]))
     return rank_options(options, key)
 

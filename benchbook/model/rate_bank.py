@@ -181,10 +181,13 @@ def design_load(job) -> dict:
     """The constant load at which a job's options are compared by KiBaM and Peukert.
 
     Cyclic jobs: the mean DC power over the day (``load_w``); standby jobs: the
-    largest duty-cycle current (``load_a``), the period that sets most cells in
-    the IEEE 485 section method. A constant load stands in for the real
-    profile: Peukert's law holds for a constant load only (Peukert 1897), and
-    KiBaM (Manwell & McGowan 1993) shows what the profile's rests give back.
+    duty cycle's mean current (``load_a``), the constant current that takes the
+    duty cycle's ampere-hours out over its duration (common practice, no
+    source). Its peaks are the IEEE 485 section method's business; this load
+    shows the rate the bank works at for most of an outage. A constant load
+    stands in for the real profile: Peukert's law holds for a constant load
+    only (Peukert 1897), and KiBaM (Manwell & McGowan 1993) shows what the
+    profile's rests give back.
 
     Returns
     -------
@@ -192,7 +195,7 @@ def design_load(job) -> dict:
         ``{"load_w": W}`` or ``{"load_a": A}``, ready for :func:`bank_at_load`.
     """
     if job.application == "standby" and job.duty_cycle:
-        return {"load_a": max(p.current_a for p in job.duty_cycle)}
+        return {"load_a": max(job.duty_cycle_mean_current_a, 1e-6)}
     return {"load_w": max(job.mean_dc_power_w, 1e-6)}
 
 

@@ -104,7 +104,7 @@ def metrics(currency: str) -> tuple[Metric, ...]:
         Metric("nominal", "Nominal energy [kWh]", "0.00", lambda r: float(r.option.nominal_kwh)),
         Metric("usable", "Usable energy, design rate and min. temperature [kWh]", "0.00",
                lambda r: float(r.option.usable_kwh), best="max"),
-        Metric("gain", "Parallel gain [-]", "0.000", lambda r: float(r.option.parallel_gain)),
+        Metric("gain", "Parallel gain [-]", "0.000", lambda r: _finite(r.option.parallel_gain)),
         Metric("crate", "Per-string C-rate [1/h]", "0.000", lambda r: float(r.option.c_rate)),
         Metric("current", "Current per string [A]", "0.00", lambda r: float(r.option.string_current_a)),
         Metric("rte", "Round-trip efficiency [%]", "0.0%", lambda r: float(r.round_trip_efficiency), best="max",
@@ -166,7 +166,7 @@ def parallel_curve(job: Any, record: Any, max_parallel: int) -> tuple[list[int],
     """Usable energy of 1..max_parallel strings of the record's battery, and P × one string at the full load.
 
     KiBaM usable energy to the rate table's end voltage at the job's mean DC
-    load (cyclic) or largest duty-cycle current (standby), from
+    load (cyclic) or the duty cycle's mean current (standby), from
     :func:`benchbook.model.rate_bank.bank_at_load`. [kWh]
     """
     o = record.option

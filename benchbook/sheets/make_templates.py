@@ -409,7 +409,7 @@ def build_offgrid_sample(template: Path):
     wb = _from_template(template)
     _fill_names(wb, {
         "job_site": "Larchmoor upland research hut", "job_client": "Tarnside Conservation Cooperative",
-        "job_application": "cyclic", "job_system_voltage_v": 48, "job_autonomy_days": 3, "job_max_dod": 0.5,
+        "job_application": "cyclic", "job_system_voltage_v": 48, "job_autonomy_days": 2, "job_max_dod": 0.5,
         "job_min_temp_c": -10, "job_design_margin": 1.1, "job_aging_factor": 1.25,
         "job_end_voltage_per_cell_v": 1.85, "job_inverter_efficiency": 0.92,
         "job_window_min_v": 40, "job_window_max_v": 64, "job_max_parallel": 3,

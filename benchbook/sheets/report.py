@@ -164,7 +164,7 @@ def format_rates(job, evaluated: Sequence[EvaluatedOption], rates: Sequence[Bank
     """The rate table of ``size``: each option at the design load by KiBaM beside Peukert."""
     b0 = rates[0]
     load = (f"{job.mean_dc_power_w:,.0f} W mean DC load" if b0.load_basis == "power"
-            else f"{b0.bank_current_a:,.1f} A, the largest duty-cycle current")
+            else f"{b0.bank_current_a:,.1f} A, the duty cycle's mean current")
     head = ["#", "Battery", "S x P", "I/string [A]", "KiBaM [h]", "KiBaM [Ah]", "Peukert k", "Peukert [h]",
             "Peukert [Ah]", "Bound at cut-off [Ah]", f"Back after {b0.rest_h:g} h rest [Ah]"]
     rows = [head]
@@ -225,7 +225,7 @@ def format_options(job, evaluated: Sequence[EvaluatedOption], top: int = 10,
     for e in evaluated[:top]:
         o = e.option
         row = [str(e.rank), o.model, f"{o.series} x {o.parallel}", str(o.blocks), f"{o.usable_kwh:.1f}",
-               f"{o.parallel_gain:.3f}", f"C/{1 / o.c_rate:.0f}" if o.c_rate > 0 else "-",
+               f"{o.parallel_gain:.3f}" if math.isfinite(o.parallel_gain) else "n/a", f"C/{1 / o.c_rate:.0f}" if o.c_rate > 0 else "-",
                f"{100 * e.round_trip_efficiency:.1f}" if math.isfinite(e.round_trip_efficiency) else "-",
                f"{e.unserved_kwh:.1f}", f"{e.service_life_years:.1f}", e.life_limited_by,
                f"{o.price:,.0f}", money(e.cost_per_kwh, ",.3f")]
@@ -245,7 +245,9 @@ def format_options(job, evaluated: Sequence[EvaluatedOption], top: int = 10,
         out += ["", "Flags:"] + [f"  #{r}: {f}" for r, f in flagged]
     rte = ("one standard cycle at the duty cycle's rate and depth" if standby
            else "energy out over energy in for the simulated year")
-    out += ["", "Gain: usable energy of P strings over P x one string at the full load (KiBaM). "
+    gain_at = (" at the duty cycle's mean current; the IEEE 485 sizing itself counts no gain" if standby
+               else " at the mean DC load")
+    out += ["", f"Gain: usable energy of P strings over P x one string at the full load (KiBaM{gain_at}). "
             f"RTE: round-trip energy efficiency, {rte}.",
             "Ranked by " + ("cost of readiness per year" if standby else "cost per delivered kWh")
             + "; options that miss the requirement come last."]
