@@ -218,84 +218,48 @@ def _cmd_fieldsheet(args: argparse.Namespace) -> int:
 # ---- check: thresholds --------------------------------------------------------------------------
 # (criteria, field, metavar, low, high, low_open, what, source); each option is named after the field of
 # CapacityCriteria / ReadingsCriteria it sets, as the JSON output's "criteria" names it, and shows its default.
-_THRESHOLDS = (
-    ("capacity", "replace_below_percent", "PCT", 0, 100, True,
-     "replace the bank below this capacity at 25 °C", "IEEE 450"),
-    ("capacity", "test_yearly_below_percent", "PCT", 0, 100, True,
-     "test yearly below this capacity at 25 °C", "IEEE 450, from memory"),
-    ("capacity", "max_drop_points", "PCT", 0, 100, True,
-     "test yearly after a drop of more than this many points since the previous test",
-     "IEEE 450, from memory"),
-    ("capacity", "end_voltage_tolerance_v_per_cell", "V", 0, 0.5, False,
-     "a last reading this close to the end voltage ended the test [V/cell]", "common practice"),
-    ("capacity", "rated_time_tolerance_min", "MIN", 0, 60, False,
-     "an end this close to the rated time counts as stopped at the rated time [min]", "common practice"),
-    ("capacity", "early_fraction", "F", 0, 1, True,
-     "a block at its end voltage before this fraction of the test fell away early", "common practice"),
-    ("capacity", "current_tolerance", "F", 0, 1, False,
-     "largest mean deviation of the logged current from the test current, as a fraction",
-     "common practice"),
-    ("readings", "sg_below_mean", "SG", 0, 0.2, True,
-     "equalize when a cell's corrected SG is more than this below the mean", "common practice"),
-    ("readings", "min_float_v_per_cell", "V", 1.8, 2.6, False,
-     "equalize when a block floats below this [V/cell]", "common practice"),
-    ("readings", "float_deviation_v_per_cell", "V", 0, 0.5, True,
-     "flag a float voltage this far from its string's mean [V/cell]", "common practice"),
-    ("readings", "sg_spread", "SG", 0, 0.2, True,
-     "flag a corrected-SG spread (max - min) above this", "common practice; manuals give 0.025-0.050"),
-    ("readings", "temp_spread_c", "C", 0, 30, True,
-     "flag a cell-to-cell temperature spread above this [°C]", "common practice"),
-    ("readings", "above_ambient_c", "C", 0, 50, True,
-     "a block this much above ambient warns of thermal runaway [°C]", "common practice"),
-    ("readings", "ohmic_rise", "F", 0, 5, True,
-     "flag an ohmic value this fraction above its baseline (0.2 = 20 %%)", "common practice"),
-    ("readings", "ohmic_above_mean", "F", 0, 5, True,
-     "with no baseline, flag an ohmic value this fraction above the bank mean", "common practice"),
-    ("readings", "connection_above_mean", "F", 0, 5, True,
-     "flag a connection resistance this fraction above the average", "common practice"),
-)
-
-
-def _threshold_type(low: float, high: float, low_open: bool, fraction: bool) -> Callable[[str], float]:
+def _threshold_type(th) -> Callable[[str], float]:
+    """argparse type of one threshold option: the range and words of its model field (``model.criteria``)."""
     def parse(text: str) -> float:
         try:
             v = float(text)
         except ValueError:
             v = float("nan")
-        if not (v == v and (v > low if low_open else v >= low) and v <= high):
-            span = f"above {low:g} and at most {high:g}" if low_open else f"from {low:g} to {high:g}"
-            hint = " (a fraction: 0.2 means 20 %)" if fraction else ""
-            raise argparse.ArgumentTypeError(f"found {text!r}; expected a number {span}{hint}")
+        if not th.accepts(v):
+            raise argparse.ArgumentTypeError(f"found {text!r}; expected {th.expected()}")
         return v
     return parse
 
 
-def _add_thresholds(p: argparse.ArgumentParser) -> None:
-    """The check's thresholds, one option per criterion; each report records the values used."""
+def _criteria_classes() -> tuple:
     from benchbook.model.fieldtests import CapacityCriteria
     from benchbook.model.readings import ReadingsCriteria
 
-    defaults = {"capacity": CapacityCriteria(), "readings": ReadingsCriteria()}
-    for kind, title in (("capacity", "capacity-test thresholds"), ("readings", "readings thresholds")):
+    return (("capacity-test thresholds", "capacity_criteria", CapacityCriteria),
+            ("readings thresholds", "readings_criteria", ReadingsCriteria))
+
+
+def _add_thresholds(p: argparse.ArgumentParser) -> None:
+    """The check's thresholds, one option per criterion field; each report records the values used."""
+    from benchbook.model.criteria import thresholds
+
+    for title, _key, cls in _criteria_classes():
         g = p.add_argument_group(f"{title} (override the defaults; the output records the values used)")
-        for k, field_, metavar, low, high, low_open, what, source in _THRESHOLDS:
-            if k == kind:
-                g.add_argument("--" + field_.replace("_", "-"), dest=field_, metavar=metavar,
-                               type=_threshold_type(low, high, low_open, metavar == "F"),
-                               help=f"{what} (default {getattr(defaults[kind], field_):g}; {source})")
+        defaults = cls()
+        for name, th in thresholds(cls):
+            g.add_argument("--" + name.replace("_", "-"), dest=name, metavar=th.metavar, type=_threshold_type(th),
+                           help=f"{th.what} (default {getattr(defaults, name):g}; {th.source})".replace("%", "%%"))
 
 
 def _criteria(args: argparse.Namespace) -> dict:
     """``capacity_criteria`` / ``readings_criteria`` for the library, from the threshold options given."""
     from dataclasses import replace
 
-    from benchbook.model.fieldtests import CapacityCriteria
-    from benchbook.model.readings import ReadingsCriteria
+    from benchbook.model.criteria import thresholds
 
     out = {}
-    for kind, key, cls in (("capacity", "capacity_criteria", CapacityCriteria),
-                           ("readings", "readings_criteria", ReadingsCriteria)):
-        given = {t[1]: getattr(args, t[1]) for t in _THRESHOLDS if t[0] == kind and getattr(args, t[1]) is not None}
+    for _title, key, cls in _criteria_classes():
+        given = {name: getattr(args, name) for name, _ in thresholds(cls) if getattr(args, name) is not None}
         if given:
             out[key] = replace(cls(), **given)
     return out

@@ -90,24 +90,45 @@ CLEAN_RD = ROOT / "samples" / "field" / "readings-clean.xlsx"
 def test_check_help_lists_every_threshold_with_its_default():
     from dataclasses import fields
 
-    from benchbook.cli import _THRESHOLDS
+    from benchbook.model.criteria import thresholds
     from benchbook.model.fieldtests import CapacityCriteria
     from benchbook.model.readings import ReadingsCriteria
 
     text = " ".join(run("check", "--help").stdout.split())  # argparse wraps lines
-    for kind, cls in (("capacity", CapacityCriteria), ("readings", ReadingsCriteria)):
-        names = [t[1] for t in _THRESHOLDS if t[0] == kind]
-        assert names == [f.name for f in fields(cls)]  # every criterion has its option, none made up
-        for t in _THRESHOLDS:
-            if t[0] == kind:
-                # the help shows the dataclass default (IEEE 450 80 % / 90 % / 10 points, from the docstrings)
-                default = f"{getattr(cls(), t[1]):g}"
-                assert f"--{t[1].replace('_', '-')}" in text and f"(default {default}; {t[7]})" in text
+    for cls in (CapacityCriteria, ReadingsCriteria):
+        assert [n for n, _ in thresholds(cls)] == [f.name for f in fields(cls)]  # every field is a threshold
+        for name, th in thresholds(cls):
+            # the help shows the dataclass default (IEEE 450 80 % / 90 % / 10 points, from the docstrings)
+            default = f"{getattr(cls(), name):g}"
+            assert f"--{name.replace('_', '-')} {th.metavar}" in text and f"(default {default}; {th.source})" in text
     for option, default in (("--replace-below-percent PCT", "80"), ("--test-yearly-below-percent PCT", "90"),
                             ("--max-drop-points PCT", "10")):  # IEEE 450 (from memory)
         assert text[text.rindex(option):].split("(default ")[1].startswith(default + ";")
     r = run("check", str(CLEAN_CT), "--ohmic-rise", "20")
     assert r.returncode == 2 and "--ohmic-rise: found '20'; expected a number above 0 and at most 5" in r.stderr
+
+
+def test_criteria_check_their_own_ranges_for_library_callers():
+    # the ranges live on the model fields (benchbook.model.criteria), so check_path's callers get them too
+    from benchbook.errors import SpecError
+    from benchbook.model.fieldtests import CapacityCriteria
+    from benchbook.model.readings import ReadingsCriteria
+    from benchbook.sheets.checked import check_path
+
+    with pytest.raises(SpecError) as ei:
+        CapacityCriteria(replace_below_percent=-5, early_fraction=1.5, current_tolerance=float("nan"))
+    found = {p.field: (p.value, p.expected) for p in ei.value.problems}
+    assert set(found) == {"replace_below_percent", "early_fraction", "current_tolerance"}  # all at once
+    assert found["replace_below_percent"] == (-5, "a number above 0 and at most 100")
+    assert found["early_fraction"][1] == "a number above 0 and at most 1 (a fraction: 0.2 means 20 %)"
+    with pytest.raises(SpecError, match="ohmic_rise: found True"):
+        ReadingsCriteria(ohmic_rise=True)
+    with pytest.raises(SpecError, match="min_float_v_per_cell: found 1.5; expected a number from 1.8 to 2.6"):
+        ReadingsCriteria(min_float_v_per_cell=1.5)
+    assert ReadingsCriteria(min_float_v_per_cell=1.8).min_float_v_per_cell == 1.8  # the bound itself is allowed
+    # a valid stricter criterion passes through check_path to the result
+    rep = check_path(CLEAN_CT, workers=1, progress=False, capacity_criteria=CapacityCriteria(replace_below_percent=95))
+    assert json.loads(rep.to_json())["criteria"]["replace_below_percent"] == 95
 
 
 def test_check_thresholds_reach_a_file_and_a_folder(tmp_path):

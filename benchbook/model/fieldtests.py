@@ -21,6 +21,7 @@ from typing import Optional
 import numpy as np
 
 from benchbook.errors import FieldProblem, ModelError, SpecError
+from benchbook.model.criteria import check_thresholds, threshold
 from benchbook.model.findings import Finding
 from benchbook.model.fieldbank import FieldBank  # noqa: F401 - public here too
 from benchbook.model.readings import (SG_CONVENTIONS, block_ids_for,  # noqa: F401 - public here too
@@ -169,13 +170,30 @@ class CapacityCriteria:
         as a fraction (common practice, no source). [-]
     """
 
-    replace_below_percent: float = 80.0
-    test_yearly_below_percent: float = 90.0
-    max_drop_points: float = 10.0
-    end_voltage_tolerance_v_per_cell: float = 0.02
-    rated_time_tolerance_min: float = 1.0
-    early_fraction: float = 0.90
-    current_tolerance: float = 0.02
+    replace_below_percent: float = threshold(
+        80.0, low=0, high=100, low_open=True, metavar="PCT", source="IEEE 450",
+        what="replace the bank below this capacity at 25 °C")
+    test_yearly_below_percent: float = threshold(
+        90.0, low=0, high=100, low_open=True, metavar="PCT", source="IEEE 450, from memory",
+        what="test yearly below this capacity at 25 °C")
+    max_drop_points: float = threshold(
+        10.0, low=0, high=100, low_open=True, metavar="PCT", source="IEEE 450, from memory",
+        what="test yearly after a drop of more than this many points since the previous test")
+    end_voltage_tolerance_v_per_cell: float = threshold(
+        0.02, low=0, high=0.5, metavar="V", source="common practice",
+        what="a last reading this close to the end voltage ended the test [V/cell]")
+    rated_time_tolerance_min: float = threshold(
+        1.0, low=0, high=60, metavar="MIN", source="common practice",
+        what="an end this close to the rated time counts as stopped at the rated time [min]")
+    early_fraction: float = threshold(
+        0.90, low=0, high=1, low_open=True, metavar="F", source="common practice",
+        what="a block at its end voltage before this fraction of the test fell away early")
+    current_tolerance: float = threshold(
+        0.02, low=0, high=1, metavar="F", source="common practice",
+        what="largest mean deviation of the logged current from the test current, as a fraction")
+
+    def __post_init__(self) -> None:
+        check_thresholds(self)
 
 
 @dataclass(frozen=True, eq=False)

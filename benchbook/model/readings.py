@@ -22,6 +22,7 @@ from typing import Optional, Sequence
 import numpy as np
 
 from benchbook.errors import ModelError
+from benchbook.model.criteria import check_thresholds, threshold
 from benchbook.model.findings import Finding
 
 #: Specific-gravity temperature conventions: reference temperature [°C] and
@@ -246,15 +247,36 @@ class ReadingsCriteria:
         practice, no source; 20 %). [-]
     """
 
-    sg_below_mean: float = 0.010
-    min_float_v_per_cell: float = 2.13
-    float_deviation_v_per_cell: float = 0.05
-    sg_spread: float = 0.030
-    temp_spread_c: float = 3.0
-    above_ambient_c: float = 10.0
-    ohmic_rise: float = 0.20
-    ohmic_above_mean: float = 0.30
-    connection_above_mean: float = 0.20
+    sg_below_mean: float = threshold(0.010, low=0, high=0.2, low_open=True, metavar='SG',
+                                  what="equalize when a cell's corrected SG is more than this below the mean",
+                                  source='common practice')
+    min_float_v_per_cell: float = threshold(
+        2.13, low=1.8, high=2.6, metavar="V", source="common practice",
+        what="equalize when a block floats below this [V/cell]")
+    float_deviation_v_per_cell: float = threshold(0.05, low=0, high=0.5, low_open=True, metavar='V',
+                                  what="flag a float voltage this far from its string's mean [V/cell]",
+                                  source='common practice')
+    sg_spread: float = threshold(
+        0.030, low=0, high=0.2, low_open=True, metavar="SG", source="common practice; manuals give 0.025-0.050",
+        what="flag a corrected-SG spread (max - min) above this")
+    temp_spread_c: float = threshold(
+        3.0, low=0, high=30, low_open=True, metavar="C", source="common practice",
+        what="flag a cell-to-cell temperature spread above this [°C]")
+    above_ambient_c: float = threshold(
+        10.0, low=0, high=50, low_open=True, metavar="C", source="common practice",
+        what="a block this much above ambient warns of thermal runaway [°C]")
+    ohmic_rise: float = threshold(
+        0.20, low=0, high=5, low_open=True, metavar="F", source="common practice",
+        what="flag an ohmic value this fraction above its baseline (0.2 = 20 %)")
+    ohmic_above_mean: float = threshold(
+        0.30, low=0, high=5, low_open=True, metavar="F", source="common practice",
+        what="with no baseline, flag an ohmic value this fraction above the bank mean")
+    connection_above_mean: float = threshold(
+        0.20, low=0, high=5, low_open=True, metavar="F", source="common practice",
+        what="flag a connection resistance this fraction above the average")
+
+    def __post_init__(self) -> None:
+        check_thresholds(self)
 
 
 @dataclass(frozen=True)
