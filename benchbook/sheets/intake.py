@@ -123,7 +123,7 @@ class _Reader:
         A merge keeps only its first (top-left) cell's value, so a named cell
         merged over reads blank even when the merged block shows a value.
         """
-        merged = _merged_over(self.book, cell)
+        merged = self.book.merged_over(cell)
         if merged is None:
             return False
         r1, c1, r2, c2 = merged
@@ -229,20 +229,6 @@ class _Reader:
             self.problems.errors.append(InputError(
                 self.book.label + info.sheet, info.ref, Found(f"{rest} more bad cells in table {ts.name}"),
                 "every cell as described above", ts.name))
-
-
-def _merged_over(book: Book, ref: CellRef) -> Optional[tuple[int, int, int, int]]:
-    """The merged range ``(row1, col1, row2, col2)`` (1-based, inclusive) covering ``ref``, if any."""
-    try:
-        ranges = book._cwb.get_sheet_by_name(ref.sheet).merged_cell_ranges or []  # noqa: SLF001
-    except (KeyboardInterrupt, SystemExit, MemoryError):
-        raise
-    except BaseException:  # noqa: BLE001 - merges only sharpen a message; python-calamine may panic
-        return None
-    for (r1, c1), (r2, c2) in ranges:
-        if r1 + 1 <= ref.row <= r2 + 1 and c1 + 1 <= ref.col <= c2 + 1:
-            return r1 + 1, c1 + 1, r2 + 1, c2 + 1
-    return None
 
 
 def _was_bad(local: Problems, ref: CellRef, book: Book) -> bool:

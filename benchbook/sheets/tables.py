@@ -408,6 +408,23 @@ class Book:
                 skip_empty_area=False))
         return self._grids[sheet]
 
+    def merged_over(self, ref: CellRef) -> Optional[tuple[int, int, int, int]]:
+        """The merged range ``(row1, col1, row2, col2)`` (1-based, inclusive) covering ``ref``, if any.
+
+        Merges only sharpen a message, so a sheet python-calamine cannot give
+        them for (or panics on) answers None.
+        """
+        try:
+            ranges = self._cwb.get_sheet_by_name(ref.sheet).merged_cell_ranges or []
+        except (KeyboardInterrupt, SystemExit, MemoryError):
+            raise
+        except BaseException:  # noqa: BLE001 - python-calamine may panic (pyo3 PanicException)
+            return None
+        for (r1, c1), (r2, c2) in ranges:
+            if r1 + 1 <= ref.row <= r2 + 1 and c1 + 1 <= ref.col <= c2 + 1:
+                return r1 + 1, c1 + 1, r2 + 1, c2 + 1
+        return None
+
     def value(self, ref: CellRef) -> Any:
         g = self.grid(ref.sheet)
         if ref.row - 1 < len(g) and ref.col - 1 < len(g[ref.row - 1]):
