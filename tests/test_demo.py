@@ -59,6 +59,10 @@ def test_headline_numbers_are_the_comparison_workbooks(demo):
         assert f"usable {float(col['Usable energy, design rate and min. temperature [kWh]']):.1f} kWh" in block
         assert f"round-trip efficiency {float(col['Round-trip efficiency [%]']):.1%}" in block
         assert f"service life {float(col['Service life [years]']):.1f} years" in block
+    # how many options meet each job's requirement (benchbook's own sizing; the README's cost bullet relies on
+    # two for the off-grid job)
+    assert "options evaluated: 6, 2 meet the requirement" in r.stdout[r.stdout.index("Larchmoor"):]
+    assert "options evaluated: 6, 3 meet the requirement" in r.stdout[r.stdout.index("Brindle Hill"):]
 
 
 def test_demo_prints_the_quotes_to_pdf_with_libreoffice(tmp_path):
