@@ -660,4 +660,27 @@ def test_a_date_cell_beyond_the_calendar_is_an_error_at_its_cell(tmp_path):
     assert r.returncode == 2, r.stderr
     assert f"{sheet}!{cell}: Date of readings: found \"-4.255538637229261e+16\"" in r.stdout
     assert "Traceback" not in r.stderr and "stack backtrace" not in r.stderr
+    assert "panicked" not in r.stderr and "RUST_BACKTRACE" not in r.stderr  # Rust's own hook message is held
     assert bad.read_bytes() == before
+
+
+def test_held_panic_messages_gives_back_everything_else(capfd):
+    # Rust's default panic hook writes "thread '…' panicked at FILE:LINE:COL:", the message and a note line,
+    # after a blank line (as python-calamine's chrono panic above printed it; Rust std, no other source)
+    from benchbook.sheets.rustpanic import held_panic_messages, strip_panic_messages
+
+    panic = ("\nthread '<unnamed>' (32401) panicked at /src/chrono-0.4.45/src/lib.rs:717:17:\n"
+             "TimeDelta::milliseconds out of bounds\n"
+             "note: run with `RUST_BACKTRACE=1` environment variable to display a backtrace\n")
+    assert strip_panic_messages("before\n" + panic + "after\n") == "before\nafter\n"
+    assert strip_panic_messages("thread 'main' panicked at x.rs:1:1:\nboom\n") == ""  # no note: to the end
+    assert strip_panic_messages("a thread is not a panic\n") == "a thread is not a panic\n"
+    import os
+    import sys
+
+    with held_panic_messages():
+        os.write(2, ("kept line\n" + panic).encode())
+        print("python stderr line", file=sys.stderr)
+    err = capfd.readouterr().err
+    assert "kept line\n" in err and "python stderr line\n" in err
+    assert "panicked" not in err and "RUST_BACKTRACE" not in err

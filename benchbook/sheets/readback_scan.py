@@ -32,6 +32,7 @@ from typing import Any, Optional
 from openpyxl.utils.cell import column_index_from_string, range_boundaries
 
 from benchbook.errors import FileFormatError
+from benchbook.sheets.rustpanic import held_panic_messages
 from benchbook.sheets.safeio import check_workbook_file
 
 _NS_MAIN = "{http://schemas.openxmlformats.org/spreadsheetml/2006/main}"
@@ -98,7 +99,8 @@ class RawBook:
         """All values of ``sheet`` from A1 (``""`` for an empty cell), cached values for formulas."""
         if sheet not in self._grids:
             try:
-                self._grids[sheet] = self._sheet(sheet).to_python(skip_empty_area=False)
+                with held_panic_messages():
+                    self._grids[sheet] = self._sheet(sheet).to_python(skip_empty_area=False)
             except (KeyboardInterrupt, SystemExit, MemoryError):
                 raise
             except BaseException as exc:  # calamine errors, and pyo3's PanicException (a BaseException), e.g.
@@ -137,8 +139,9 @@ class RawBook:
                     for info in zf.infolist():
                         out.writestr(info.filename, xml if info.filename == part else zf.read(info))
             buf.seek(0)
-            return python_calamine.CalamineWorkbook.from_filelike(buf).get_sheet_by_name(sheet).to_python(
-                skip_empty_area=False)
+            with held_panic_messages():
+                return python_calamine.CalamineWorkbook.from_filelike(buf).get_sheet_by_name(sheet).to_python(
+                    skip_empty_area=False)
         except (KeyboardInterrupt, SystemExit, MemoryError):
             raise
         except BaseException:  # noqa: BLE001 - the caller reports the original failure

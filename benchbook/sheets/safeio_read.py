@@ -19,6 +19,7 @@ from pathlib import Path
 from typing import Any, Iterable, Iterator, Sequence
 
 from benchbook.errors import BenchbookError, FileFormatError, InputError
+from benchbook.sheets.rustpanic import held_panic_messages
 from benchbook.sheets.safeio import ArchiveLimits, IntegrityError, check_workbook_file, limits_in_force
 
 _TABLE = "{urn:oasis:names:tc:opendocument:xmlns:table:1.0}"
@@ -233,7 +234,8 @@ def read_values(path: str | os.PathLike, sheet: str | int, *, limits: ArchiveLim
                 sheet = names[sheet]
             if sheet not in names:
                 raise missing_sheet(str(sheet), names, source=p.name)
-            return wb.get_sheet_by_name(sheet).to_python(skip_empty_area=False)
+            with held_panic_messages():
+                return wb.get_sheet_by_name(sheet).to_python(skip_empty_area=False)
         finally:
             wb.close()
     except BenchbookError:

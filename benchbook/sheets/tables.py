@@ -22,6 +22,7 @@ from typing import Any, Optional, Sequence
 from openpyxl.utils.cell import get_column_letter, range_boundaries
 
 from benchbook.errors import FileFormatError
+from benchbook.sheets.rustpanic import held_panic_messages
 from benchbook.sheets.safeio import load_openpyxl
 
 
@@ -376,7 +377,8 @@ class Book:
     def _guard(self, fn, *args: Any, **kw: Any) -> Any:
         """Call a python-calamine function; its failures (even a Rust panic) become FileFormatError."""
         try:
-            return fn(*args, **kw)
+            with held_panic_messages():
+                return fn(*args, **kw)
         except (KeyboardInterrupt, SystemExit, MemoryError):
             raise
         except BaseException as exc:  # calamine errors and pyo3's PanicException (a BaseException)
