@@ -587,3 +587,48 @@ def test_parse_date_1904_system():
 def test_errors_are_benchbook_errors():
     assert issubclass(safeio.IntegrityError, BenchbookError)
     assert issubclass(FileFormatError, BenchbookError)
+
+
+# ---- number cells that store no number -----------------------------------------------------------------
+def _store_in_number_cells(src: Path, dst: Path, part: str, refs_and_texts: dict[str, str]) -> None:
+    """Copy an .xlsx, replacing the stored value of the given number cells of one worksheet part."""
+    import re
+
+    with zipfile.ZipFile(src) as zin, zipfile.ZipFile(dst, "w", zipfile.ZIP_DEFLATED) as zout:
+        for item in zin.infolist():
+            data = zin.read(item.filename)
+            if item.filename == part:
+                for ref, text in refs_and_texts.items():
+                    data, n = re.subn(rb'(<c r="' + ref.encode() + rb'"[^>]*>)<v>[^<]*</v>',
+                                      lambda m: m.group(1) + b"<v>" + text.encode() + b"</v>", data)
+                    assert n == 1 and b't="s"' not in re.search(rb'<c r="' + ref.encode() + rb'"[^>]*>', data).group(0)
+            zout.writestr(item, data)
+
+
+@pytest.mark.parametrize("command", ["check", "template-check"])
+def test_a_number_cell_storing_nan_or_infinity_is_named_at_its_cell(tmp_path, command):
+    # ECMA-376 Part 1, 18.3.1.4/18.3.1.96: a cell without t= holds a number; spreadsheet applications never
+    # store NaN or INF there (common practice, no source), but another program may. openpyxl fails on the
+    # whole file ("invalid literal for int()"); benchbook names every such cell, at once, and changes nothing.
+    root = Path(__file__).resolve().parents[1]
+    if command == "check":
+        src, part, cells = root / "samples" / "field" / "readings-clean.xlsx", "xl/worksheets/sheet2.xml", \
+            {"B5": "NaN", "B6": "-INF"}
+        args = [command, None, "-o", str(tmp_path / "out.xlsx")]
+        sheet = "Readings"
+    else:
+        src, part, cells = root / "templates" / "quote.xlsx", "xl/worksheets/sheet2.xml", {"D6": "NaN"}
+        args = [command, None, "--kind", "quote"]
+        sheet = "Arrangement"
+    bad = tmp_path / "stored-nan.xlsx"
+    _store_in_number_cells(src, bad, part, cells)
+    before = _sha(bad)
+    args[1] = str(bad)
+    r = subprocess.run([sys.executable, "-m", "benchbook", *args], capture_output=True, text=True, timeout=300)
+    text = r.stdout + r.stderr
+    assert r.returncode == 2, text
+    for ref, stored in cells.items():
+        assert f'{sheet}!{ref}: stored number: found "{stored}"; expected a finite number' in text
+    assert "Traceback" not in text and "invalid literal" not in text
+    assert _sha(bad) == before
+    assert not (tmp_path / "out.xlsx").exists()

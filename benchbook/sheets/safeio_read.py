@@ -144,6 +144,8 @@ def reading(path: str | os.PathLike) -> Iterator[None]:
             translated = _translate(exc, name)
             if translated is None:
                 raise
+            if isinstance(exc, ValueError):  # openpyxl's int()/float() of a stored number: name the cells
+                _raise_for_stored_non_numbers(Path(path))
             raise translated from None
 
 
@@ -185,6 +187,58 @@ def load_openpyxl(path: str | os.PathLike, *, data_only: bool = False, read_only
             raise FileFormatError(f"{p.name}: could not be read as a workbook ({type(exc).__name__}: "
                                   f"{str(exc)[:200]}); open it in a spreadsheet application and save it "
                                   "again as .xlsx") from None
+
+
+_NUM_CELL = re.compile(rb'<(?:\w+:)?c\b([^>]*)>\s*<(?:\w+:)?v>\s*([^<]*?)\s*</(?:\w+:)?v>')
+_T_ATTR = re.compile(rb'\bt="([^"]*)"')
+_REF_ATTR = re.compile(rb'\br="([A-Z]{1,3}[0-9]+)"')
+_FINITE = re.compile(rb'[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?')
+
+
+def _stored_non_numbers(p: Path) -> list[tuple[str, str, str]]:
+    """``(sheet, cell, text)`` of number cells whose stored value is not a finite number (``<v>NaN</v>``).
+
+    ECMA-376 Part 1, 18.3.1.4 (c) and 18.3.1.96 (v): a cell with no ``t`` or
+    ``t="n"`` holds a number. Spreadsheet applications never store NaN or
+    infinity there (common practice, no source); another program may have.
+    """
+    from defusedxml.ElementTree import fromstring  # noqa: PLC0415
+
+    out: list[tuple[str, str, str]] = []
+    try:
+        with zipfile.ZipFile(p) as zf:
+            wb = fromstring(zf.read("xl/workbook.xml"))
+            rels = fromstring(zf.read("xl/_rels/workbook.xml.rels"))
+            target = {r.get("Id"): r.get("Target", "") for r in rels if r.tag.endswith("Relationship")}
+            rid = "{http://schemas.openxmlformats.org/officeDocument/2006/relationships}id"
+            for el in wb.iter():
+                if not el.tag.endswith("}sheet"):
+                    continue
+                t = target.get(el.get(rid), "")
+                part = t.lstrip("/") if t.startswith("/") else "xl/" + t
+                if part not in zf.namelist():
+                    continue
+                for m in _NUM_CELL.finditer(zf.read(part)):
+                    kind = _T_ATTR.search(m.group(1))
+                    ref = _REF_ATTR.search(m.group(1))
+                    if (kind is None or kind.group(1) == b"n") and ref and not _FINITE.fullmatch(m.group(2)):
+                        out.append((el.get("name", ""), ref.group(1).decode(), m.group(2).decode("utf-8", "replace")))
+    except (zipfile.BadZipFile, KeyError, OSError, SyntaxError, ValueError):
+        return []
+    return out
+
+
+def _raise_for_stored_non_numbers(p: Path) -> None:
+    """Every number cell that stores no number, each at its ``Sheet!Cell``, at once (if there are any)."""
+    bad = _stored_non_numbers(p)
+    if bad:
+        from benchbook.errors import Problems  # noqa: PLC0415
+
+        problems = Problems(p.name)
+        for sheet, cell, text in bad[:50]:
+            problems.add(sheet, cell, text, "a finite number (the file stores this number cell as something no "
+                         "spreadsheet holds; type the value again and save)", "stored number")
+        problems.raise_if_any()
 
 
 def read_values(path: str | os.PathLike, sheet: str | int, *, limits: ArchiveLimits | None = None) -> list[list[Any]]:
