@@ -215,3 +215,26 @@ def test_every_spec_field_survives_a_csv_round_trip(tmp_path):
         unit_price=299.99, cycle_life=((0.2, 5000), (0.5, 2500), (0.8, 1400), (1.0, 1000)), float_life_years=18.5,
         description="invented, with a comma, and \"quotes\"")
     assert read_catalog(write_catalog_csv(tmp_path / "one.csv", [spec])) == (spec,)
+
+
+def test_csv_line_ends_and_a_field_over_the_csv_limit(tmp_path):
+    # Python's csv module wants its input opened with newline="" so it reads CR, LF and CRLF line ends itself
+    # (Python documentation, csv module, footnote on newline=''); a lone CR ends a row, as spreadsheet
+    # applications read it (common practice, no source). Found by the byte-flipping fuzz test (tests/test_fuzz.py).
+    src = write_catalog_csv(tmp_path / "cat.csv", DEFAULT_CATALOG)
+    text = src.read_text(encoding="utf-8")
+    cr = tmp_path / "cr.csv"
+    cr.write_bytes(text.replace("\n", "\r").encode("utf-8"))  # old Mac line ends throughout
+    assert [s.model for s in read_catalog(cr)] == [s.model for s in DEFAULT_CATALOG]
+    # a field longer than the csv module's limit (131,072 characters by default) is an error at its line
+    lines = text.splitlines()
+    lines[2] = '"' + "x" * 140_000 + '"' + lines[2][lines[2].index(","):]
+    big = tmp_path / "big.csv"
+    big.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    before = hashlib.sha256(big.read_bytes()).hexdigest()
+    with pytest.raises(InputErrorGroup) as ei:
+        read_catalog(big)
+    [err] = ei.value.errors
+    assert (err.sheet, err.cell) == ("big.csv", "A3")
+    assert "expected a line of comma-separated values (field larger than field limit" in str(err)
+    assert hashlib.sha256(big.read_bytes()).hexdigest() == before

@@ -632,3 +632,21 @@ def test_a_number_cell_storing_nan_or_infinity_is_named_at_its_cell(tmp_path, co
     assert "Traceback" not in text and "invalid literal" not in text
     assert _sha(bad) == before
     assert not (tmp_path / "out.xlsx").exists()
+
+
+def test_stored_non_numbers_finds_formula_cells_and_prefixed_parts(tmp_path):
+    # the scanner behind the message above: a cached NaN after a formula, a shared formula, a namespace prefix
+    from benchbook.sheets.safeio_read import _NUM_CELL, _stored_non_numbers
+
+    found = [(m.group(1).strip(), m.group(2)) for m in _NUM_CELL.finditer(
+        b'<c r="A1" s="2"><v>NaN</v></c><c r="B2"><f>1/0</f><v>NaN</v></c>'
+        b'<c r="C3"><f t="shared" si="0"/><v>INF</v></c><x:c r="D4"><x:v>1.5</x:v></x:c>'
+        b'<c r="E5" t="s"><v>7</v></c>')]
+    assert found == [(b'r="A1" s="2"', b"NaN"), (b'r="B2"', b"NaN"), (b'r="C3"', b"INF"), (b'r="D4"', b"1.5"),
+                     (b'r="E5" t="s"', b"7")]
+    root = Path(__file__).resolve().parents[1]
+    bad = tmp_path / "two.xlsx"
+    _store_in_number_cells(root / "samples" / "field" / "readings-clean.xlsx", bad, "xl/worksheets/sheet2.xml",
+                           {"B5": "NaN", "C7": "1,5"})
+    assert _stored_non_numbers(bad) == [("Readings", "B5", "NaN"), ("Readings", "C7", "1,5")]
+    assert _stored_non_numbers(root / "samples" / "field" / "readings-clean.xlsx") == []

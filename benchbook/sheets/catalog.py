@@ -119,7 +119,17 @@ def _read_csv(p: Path, problems: Problems) -> list[CatalogEntry]:
         text = data.decode("cp1252", errors="replace")
     first = text.splitlines()[0] if text.strip() else ""
     delimiter = ";" if first.count(";") > first.count(",") else ","
-    table = list(csv.reader(io.StringIO(text), delimiter=delimiter))
+    # newline="": the csv module reads line ends itself (a lone CR, LF or CRLF), as its documentation asks
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+    try:
+        table = list(reader)
+    except csv.Error as exc:  # e.g. a NUL byte, or a quote left open to the end of the file
+        lines = text.splitlines()
+        found = lines[reader.line_num - 1][:60] if 0 < reader.line_num <= len(lines) else ""
+        problems.add(p.name, f"A{max(1, reader.line_num)}", found,
+                     f"a line of {'semicolon' if delimiter == ';' else 'comma'}-separated values ({exc})",
+                     "battery catalog")
+        problems.raise_if_any()
     if not table or not any(c.strip() for c in table[0]):
         raise FileFormatError(f"{p.name}: is empty; expected a header row with "
                               + ", ".join(BATTERIES.header_texts))

@@ -11,7 +11,7 @@ from benchbook.errors import InputError, Problems
 
 def bank_from_job(job_path: str | Path, option: int = 1, *, catalog: Optional[str | Path] = None,
                   bank_id: str = "BANK-1", test_hours: float = 3.0):
-    """The :class:`~benchbook.model.readings.FieldBank` of option ``option`` of a job workbook."""
+    """The :class:`~benchbook.model.fieldbank.FieldBank` of option ``option`` of a job workbook."""
     from benchbook.model.fieldbank import FieldBank
     from benchbook.sheets.report import evaluate_job, pick_option
 

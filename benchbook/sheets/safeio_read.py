@@ -189,7 +189,8 @@ def load_openpyxl(path: str | os.PathLike, *, data_only: bool = False, read_only
                                   "again as .xlsx") from None
 
 
-_NUM_CELL = re.compile(rb'<(?:\w+:)?c\b([^>]*)>\s*<(?:\w+:)?v>\s*([^<]*?)\s*</(?:\w+:)?v>')
+_NUM_CELL = re.compile(rb'<(?:\w+:)?c\b([^>]*)>\s*(?:<(?:\w+:)?f\b[^>]*?(?:/>|>[^<]*</(?:\w+:)?f>)\s*)?'
+                       rb'<(?:\w+:)?v>\s*([^<]*?)\s*</(?:\w+:)?v>')
 _T_ATTR = re.compile(rb'\bt="([^"]*)"')
 _REF_ATTR = re.compile(rb'\br="([A-Z]{1,3}[0-9]+)"')
 _FINITE = re.compile(rb'[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?')
