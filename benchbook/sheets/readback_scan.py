@@ -36,7 +36,6 @@ from benchbook.sheets.rustpanic import held_panic_messages
 from benchbook.sheets.safeio import check_workbook_file
 
 _NS_MAIN = "{http://schemas.openxmlformats.org/spreadsheetml/2006/main}"
-_NS_REL = "{http://schemas.openxmlformats.org/officeDocument/2006/relationships}"
 _NS_PKG = "{http://schemas.openxmlformats.org/package/2006/relationships}"
 _T = "urn:oasis:names:tc:opendocument:xmlns:table:1.0"
 _TBL = "{" + _T + "}"
@@ -336,15 +335,10 @@ def _xlsx_tables(path: Path) -> dict[str, TableArea]:
 
 
 def _sheet_parts(zf: zipfile.ZipFile) -> dict[str, str]:
-    """Sheet name → worksheet part path inside the archive."""
-    wb = _xml(zf.read("xl/workbook.xml"))
-    rels = _xml(zf.read("xl/_rels/workbook.xml.rels"))
-    targets = {r.get("Id"): r.get("Target", "") for r in rels.iter(_NS_PKG + "Relationship")}
-    out = {}
-    for el in wb.iter(_NS_MAIN + "sheet"):
-        t = targets.get(el.get(_NS_REL + "id"), "")
-        out[el.get("name", "")] = t.lstrip("/") if t.startswith("/") else "xl/" + t
-    return out
+    """Sheet name → worksheet part path inside the archive (:func:`safeio_notes.sheet_parts` as a dict)."""
+    from benchbook.sheets.safeio_notes import sheet_parts  # noqa: PLC0415
+
+    return {title: part for title, _state, part in sheet_parts(zf) if part}
 
 
 # A number cell (no t= or t="n") whose value lies below −1e11 or is not finite: no calendar holds it.

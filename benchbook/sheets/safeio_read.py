@@ -203,27 +203,20 @@ def _stored_non_numbers(p: Path) -> list[tuple[str, str, str]]:
     ``t="n"`` holds a number. Spreadsheet applications never store NaN or
     infinity there (common practice, no source); another program may have.
     """
-    from defusedxml.ElementTree import fromstring  # noqa: PLC0415
+    from benchbook.sheets.safeio_notes import sheet_parts  # noqa: PLC0415 - only on this rare error path
 
     out: list[tuple[str, str, str]] = []
     try:
         with zipfile.ZipFile(p) as zf:
-            wb = fromstring(zf.read("xl/workbook.xml"))
-            rels = fromstring(zf.read("xl/_rels/workbook.xml.rels"))
-            target = {r.get("Id"): r.get("Target", "") for r in rels if r.tag.endswith("Relationship")}
-            rid = "{http://schemas.openxmlformats.org/officeDocument/2006/relationships}id"
-            for el in wb.iter():
-                if not el.tag.endswith("}sheet"):
-                    continue
-                t = target.get(el.get(rid), "")
-                part = t.lstrip("/") if t.startswith("/") else "xl/" + t
-                if part not in zf.namelist():
+            members = set(zf.namelist())
+            for title, _state, part in sheet_parts(zf):
+                if part not in members:
                     continue
                 for m in _NUM_CELL.finditer(zf.read(part)):
                     kind = _T_ATTR.search(m.group(1))
                     ref = _REF_ATTR.search(m.group(1))
                     if (kind is None or kind.group(1) == b"n") and ref and not _FINITE.fullmatch(m.group(2)):
-                        out.append((el.get("name", ""), ref.group(1).decode(), m.group(2).decode("utf-8", "replace")))
+                        out.append((title, ref.group(1).decode(), m.group(2).decode("utf-8", "replace")))
     except (zipfile.BadZipFile, KeyError, OSError, SyntaxError, ValueError):
         return []
     return out
