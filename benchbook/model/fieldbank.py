@@ -11,6 +11,7 @@ from typing import Optional
 
 from benchbook.errors import FieldProblem, SpecError
 from benchbook.model.battery import BatterySpec
+from benchbook.model.life import LIFE_LIMITS
 from benchbook.model.readings import block_ids_for
 
 
@@ -76,9 +77,9 @@ class FieldBank:
         if life is not None and not (isinstance(life, (int, float)) and not isinstance(life, bool)
                                      and math.isfinite(life) and life > 0):
             probs.append(FieldProblem("model_life_years", life, "a service life above 0 years, or None"))
-        if self.model_life_limited_by not in ("", "cycling", "float"):
+        if self.model_life_limited_by not in ("", *LIFE_LIMITS):
             probs.append(FieldProblem("model_life_limited_by", self.model_life_limited_by,
-                                      "cycling, float or blank"))
+                                      f"{', '.join(LIFE_LIMITS)} or blank"))
         if probs:
             raise SpecError("field bank", probs)
 

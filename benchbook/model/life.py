@@ -27,6 +27,8 @@ from benchbook.model.battery import cycle_life_problems
 
 #: Reference temperature of stated design life. [°C]
 REFERENCE_TEMP_C = 25.0
+#: What can limit a service life (:attr:`ServiceLife.limited_by`).
+LIFE_LIMITS = ("cycling", "float")
 
 
 def _finite(v: Any) -> bool:

@@ -61,7 +61,8 @@ class DemoResult:
             meet = sum(1 for e in d.evaluated if e.option.feasible)
             lines.append(f"  options evaluated: {len(d.evaluated)}, {meet} meet the requirement; "
                          f"recommended #1: {o.model} {o.series} x {o.parallel} = {o.blocks} blocks, "
-                         f"usable {o.usable_kwh:.1f} kWh at the design rate and {job.min_temp_c:g} °C, parallel gain {o.parallel_gain:.3f}")
+                         f"usable {o.usable_kwh:.1f} kWh at the design rate and {job.min_temp_c:g} °C, "
+                         f"parallel gain {o.parallel_gain:.3f}")
             if job.application == "standby" and best.cost_of_readiness_per_year is not None:
                 money = f"cost of readiness {best.cost_of_readiness_per_year:,.0f} {cur}/year"
             elif job.application != "standby" and best.cost_per_kwh is not None:

@@ -7,6 +7,7 @@ from pathlib import Path
 from typing import Optional
 
 from benchbook.errors import InputError, Problems
+from benchbook.model.life import LIFE_LIMITS
 
 
 def bank_from_job(job_path: str | Path, option: int = 1, *, catalog: Optional[str | Path] = None,
@@ -26,7 +27,7 @@ def bank_from_job(job_path: str | Path, option: int = 1, *, catalog: Optional[st
 def _model_life(years, limited_by) -> dict:
     """The simulated service life as FieldBank keywords; nothing when it is not a finite positive number."""
     if isinstance(years, (int, float)) and not isinstance(years, bool) and math.isfinite(years) and years > 0:
-        by = limited_by if limited_by in ("cycling", "float") else ""
+        by = limited_by if limited_by in LIFE_LIMITS else ""
         return {"model_life_years": round(float(years), 2), "model_life_limited_by": by}
     return {}
 

@@ -30,6 +30,7 @@ from typing import Any
 from benchbook.errors import TemplateError
 from benchbook.model.battery import CHEMISTRIES
 from benchbook.model.job import APPLICATIONS, CHARGE_SOURCES, Economics, Generator, Job
+from benchbook.model.life import LIFE_LIMITS
 from benchbook.sheets.contract_types import (KINDS, Contract, HeaderSpec, NameSpec, TableSpec,  # noqa: F401
                                              caption, closest, expected_text, normalize_header)
 
@@ -339,8 +340,6 @@ _YES_NO = ("yes", "no")
 #: their cells hold block voltages [V]. The prefix is part of the contract.
 BLOCK_COLUMN_PREFIX = "Block "
 FIELD_METHODS = ("time-adjusted", "rate-adjusted")
-#: What limits a simulated service life (``benchbook.model.life.ServiceLife.limited_by``).
-LIFE_LIMITS = ("cycling", "float")
 SG_CONVENTION_CHOICES = ("ieee", "manual-80f", "ref-20c")
 ELECTROLYTE_LEVELS = ("ok", "low", "high")
 

@@ -225,7 +225,8 @@ def format_options(job, evaluated: Sequence[EvaluatedOption], top: int = 10,
     for e in evaluated[:top]:
         o = e.option
         row = [str(e.rank), o.model, f"{o.series} x {o.parallel}", str(o.blocks), f"{o.usable_kwh:.1f}",
-               f"{o.parallel_gain:.3f}" if math.isfinite(o.parallel_gain) else "n/a", f"C/{1 / o.c_rate:.0f}" if o.c_rate > 0 else "-",
+               f"{o.parallel_gain:.3f}" if math.isfinite(o.parallel_gain) else "n/a",
+               f"C/{1 / o.c_rate:.0f}" if o.c_rate > 0 else "-",
                f"{100 * e.round_trip_efficiency:.1f}" if math.isfinite(e.round_trip_efficiency) else "-",
                f"{e.unserved_kwh:.1f}", f"{e.service_life_years:.1f}", e.life_limited_by,
                f"{o.price:,.0f}", money(e.cost_per_kwh, ",.3f")]
