@@ -607,8 +607,8 @@ def _store_in_number_cells(src: Path, dst: Path, part: str, refs_and_texts: dict
 
 @pytest.mark.parametrize("command", ["check", "template-check"])
 def test_a_number_cell_storing_nan_or_infinity_is_named_at_its_cell(tmp_path, command):
-    # ECMA-376 Part 1, 18.3.1.4/18.3.1.96: a cell without t= holds a number; spreadsheet applications never
-    # store NaN or INF there (common practice, no source), but another program may. openpyxl fails on the
+    # ECMA-376 Part 1, 18.3.1.4/18.3.1.96 (clauses from memory): a cell without t= holds a number; spreadsheet
+    # applications never store NaN or INF there (common practice, no source), but another program may. openpyxl fails on the
     # whole file ("invalid literal for int()"); benchbook names every such cell, at once, and changes nothing.
     root = Path(__file__).resolve().parents[1]
     if command == "check":

@@ -199,7 +199,7 @@ _FINITE = re.compile(rb'[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?')
 def _stored_non_numbers(p: Path) -> list[tuple[str, str, str]]:
     """``(sheet, cell, text)`` of number cells whose stored value is not a finite number (``<v>NaN</v>``).
 
-    ECMA-376 Part 1, 18.3.1.4 (c) and 18.3.1.96 (v): a cell with no ``t`` or
+    ECMA-376 Part 1, 18.3.1.4 (c) and 18.3.1.96 (v), clause numbers from memory: a cell with no ``t`` or
     ``t="n"`` holds a number. Spreadsheet applications never store NaN or
     infinity there (common practice, no source); another program may have.
     """
